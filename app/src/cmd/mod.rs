@@ -1,0 +1,6 @@
+//! One module per subcommand: its clap arguments and its `run`.
+
+pub mod demo;
+pub mod inspect;
+pub mod lines;
+pub mod synth;

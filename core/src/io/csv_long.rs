@@ -1,0 +1,10 @@
+//! Long-format CSV/TSV (being written).
+use crate::{error::Result, map::Map, progress::Progress};
+use std::path::Path;
+/// Load a long-format delimited text file.
+pub fn load(path: &Path, _opts: &super::LoadOptions, _p: &dyn Progress) -> Result<Map> {
+    Err(crate::error::Error::UnsupportedFormat {
+        path: path.into(),
+        message: "not yet".into(),
+    })
+}

@@ -1,0 +1,10 @@
+//! (being written)
+use crate::{error::Result, map::Map, progress::Progress};
+use std::path::Path;
+/// Load plain matrix text.
+pub fn load(path: &Path, _opts: &super::LoadOptions, _p: &dyn Progress) -> Result<Map> {
+    Err(crate::error::Error::UnsupportedFormat {
+        path: path.into(),
+        message: "matrix text not yet supported".into(),
+    })
+}

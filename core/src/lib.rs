@@ -1,0 +1,33 @@
+//! fanmark-core: the computation behind fanmark, a tool for Landau fans and Wannier diagrams
+//! of gated graphene and moiré devices.
+//!
+//! SI inside: every stored value is SI (V, T, Ω, S, m⁻², K, V/m); conversions to the units
+//! physicists quote (cm⁻², 10¹² cm⁻², V/nm, meV) happen at the edges through [`units`].
+//! The library never prints, never exits and never panics on user data; errors are typed.
+
+pub mod constants;
+pub mod error;
+pub mod grid;
+pub mod io;
+pub mod map;
+pub mod progress;
+pub mod rational;
+pub mod synth;
+pub mod units;
+
+// Physics core.
+pub mod conductivity;
+pub mod derived;
+pub mod families;
+pub mod filling;
+pub mod gate;
+pub mod hofstadter;
+pub mod line;
+pub mod moire;
+pub mod savgol;
+pub mod symmetrize;
+pub mod transform;
+
+pub use error::{Error, Result};
+pub use map::{Axis, Channel, ChannelKind, Map, Quantity};
+pub use rational::Rational;

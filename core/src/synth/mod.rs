@@ -1,0 +1,1 @@
+//! Synthetic devices with known truth (being written).

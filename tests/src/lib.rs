@@ -1,0 +1,1 @@
+//! Cross-crate integration and reference checks live in `tests/tests/`.
