@@ -12,9 +12,9 @@ pub const BOLTZMANN_K: f64 = 1.380_649e-23;
 /// Reduced Planck constant ħ = h/2π in J s.
 pub const HBAR: f64 = PLANCK_H / (2.0 * std::f64::consts::PI);
 /// Vacuum permittivity ε₀ in F/m (CODATA 2018; measured, not exact since 2019).
-pub const EPSILON_0: f64 = 8.854_187_8128e-12;
+pub const EPSILON_0: f64 = 8.854_187_812_8e-12;
 /// Electron rest mass m_e in kg (CODATA 2018).
-pub const ELECTRON_MASS: f64 = 9.109_383_7015e-31;
+pub const ELECTRON_MASS: f64 = 9.109_383_701_5e-31;
 
 /// von Klitzing constant R_K = h/e² in Ω (exact since 2019): the ν = 1 Hall resistance.
 pub const VON_KLITZING_R_K: f64 = PLANCK_H / (ELEMENTARY_CHARGE * ELEMENTARY_CHARGE);

@@ -1,10 +1,907 @@
-//! Long-format CSV/TSV (being written).
-use crate::{error::Result, map::Map, progress::Progress};
-use std::path::Path;
-/// Load a long-format delimited text file.
-pub fn load(path: &Path, _opts: &super::LoadOptions, _p: &dyn Progress) -> Result<Map> {
-    Err(crate::error::Error::UnsupportedFormat {
-        path: path.into(),
-        message: "not yet".into(),
+//! Long-format delimited text: one row per measured point, columns found by header name.
+//!
+//! The delimiter (comma, tab, semicolon, or runs of blanks) is detected from the header line.
+//! Comment lines starting with `#`, blank lines, a UTF-8 byte-order mark and Windows line ends
+//! are accepted. Empty cells are missing values (NaN). The file is read in blocks; each block is
+//! split in two at a line boundary and parsed on two threads, then cut into sweeps in file order
+//! and handed to [`crate::grid`]. Progress is reported in bytes.
+
+use super::columns::{recognise, Recognised, Role};
+use super::LoadOptions;
+use crate::error::{Error, Result};
+use crate::grid::{grid_sweeps, SweepSet};
+use crate::map::{ChannelKind, Map, RawSweep, SweepDirection};
+use crate::progress::Progress;
+use std::io::Read;
+use std::path::{Path, PathBuf};
+
+/// Bytes read per block.
+const BLOCK: usize = 8 << 20;
+
+/// The column delimiter of a file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Delimiter {
+    /// A single byte: `,`, `\t` or `;`.
+    Byte(u8),
+    /// One or more spaces or tabs.
+    Blanks,
+}
+
+impl Delimiter {
+    fn describe(self) -> String {
+        match self {
+            Delimiter::Byte(b'\t') => "tab".into(),
+            Delimiter::Byte(b) => (b as char).to_string(),
+            Delimiter::Blanks => "blanks".into(),
+        }
+    }
+}
+
+/// Pick the delimiter of a header line: the most frequent of `,` `\t` `;`, else blanks.
+pub fn detect_delimiter(header: &str) -> Delimiter {
+    let count = |c: u8| header.bytes().filter(|&b| b == c).count();
+    let best = [b',', b'\t', b';']
+        .into_iter()
+        .map(|c| (count(c), c))
+        .max_by_key(|&(n, _)| n)
+        .filter(|&(n, _)| n > 0);
+    match best {
+        Some((_, c)) => Delimiter::Byte(c),
+        None => Delimiter::Blanks,
+    }
+}
+
+/// What each header column is, and which two are the map's coordinates.
+#[derive(Debug, Clone)]
+struct Layout {
+    headers: Vec<String>,
+    delimiter: Delimiter,
+    /// Column indices of the two coordinates, in header order.
+    coords: [usize; 2],
+    /// Recognised coordinate descriptions.
+    coord_info: [Recognised; 2],
+    /// Channel columns: (column index, name, recognised).
+    channels: Vec<(usize, String, Recognised)>,
+    /// A temperature column not used as an axis.
+    temperature: Option<(usize, f64)>,
+}
+
+fn split_fields(line: &str, d: Delimiter) -> Vec<&str> {
+    match d {
+        Delimiter::Byte(b) => line.split(b as char).collect(),
+        Delimiter::Blanks => line.split([' ', '\t']).filter(|s| !s.is_empty()).collect(),
+    }
+}
+
+fn layout(path: &Path, header: &str, opts: &LoadOptions) -> Result<Layout> {
+    let delimiter = detect_delimiter(header);
+    let headers: Vec<String> = split_fields(header, delimiter)
+        .into_iter()
+        .map(|h| h.trim().trim_matches('"').trim().to_string())
+        .collect();
+    let found = headers.join(", ");
+    let columns_err = |message: String, needed: &str| Error::Columns {
+        path: path.to_path_buf(),
+        message,
+        found: found.clone(),
+        needed: needed.to_string(),
+    };
+    let mut roles: Vec<Recognised> = Vec::with_capacity(headers.len());
+    for h in &headers {
+        roles.push(recognise(h).map_err(|e| columns_err(e.to_string(), "units that fit"))?);
+    }
+    // An explicit mapping overrides recognition by name.
+    for (role, header) in &opts.columns {
+        let i = headers
+            .iter()
+            .position(|h| h == header || h.eq_ignore_ascii_case(header))
+            .ok_or_else(|| {
+                columns_err(
+                    format!("the mapping names column `{header}`, which is not in the header"),
+                    "every mapped column to exist",
+                )
+            })?;
+        // The unit still comes from the header text if it has one that fits.
+        let unit = recognise(&headers[i])
+            .ok()
+            .filter(|r| Some(r.unit.dimension) == role.dimension())
+            .map(|r| r.unit)
+            .unwrap_or_else(|| role.default_unit());
+        // A role taken from another column by the mapping is released there.
+        for (j, r) in roles.iter_mut().enumerate() {
+            if j != i && r.role == *role {
+                r.role = Role::Other(headers[j].clone());
+            }
+        }
+        roles[i] = Recognised {
+            role: role.clone(),
+            unit,
+        };
+    }
+    let find = |role: &Role| roles.iter().position(|r| &r.role == role);
+    for (i, r) in roles.iter().enumerate() {
+        if r.role.is_coordinate() || !matches!(r.role, Role::Other(_)) {
+            if let Some(j) = roles[i + 1..].iter().position(|q| q.role == r.role) {
+                return Err(columns_err(
+                    format!(
+                        "columns `{}` and `{}` both look like {}; say which to use with a column mapping",
+                        headers[i],
+                        headers[i + 1 + j],
+                        r.role.name()
+                    ),
+                    "one column per role",
+                ));
+            }
+        }
+    }
+    let gate_like = [Role::Gate, Role::Density, Role::BottomGate, Role::TopGate]
+        .iter()
+        .find_map(find);
+    let coords = match (
+        find(&Role::TopGate),
+        find(&Role::BottomGate),
+        find(&Role::Field),
+    ) {
+        (Some(t), Some(b), _) => [b, t],
+        _ => match (gate_like, find(&Role::Field), find(&Role::Temperature)) {
+            (Some(g), Some(f), _) => [g, f],
+            (Some(g), None, Some(t)) => [g, t],
+            (None, Some(f), Some(t)) => [f, t],
+            _ => {
+                return Err(columns_err(
+                    "could not find two coordinate columns".into(),
+                    "a gate column (vg_V, gate, V_g…) or density (n_cm2) and a field column \
+                     (b_T, B, field…), or top and bottom gates (vt_V, vb_V); map them with \
+                     --columns gate=NAME,field=NAME",
+                ))
+            }
+        },
+    };
+    let mut channels = Vec::new();
+    let mut temperature = None;
+    for (i, r) in roles.iter().enumerate() {
+        if coords.contains(&i) {
+            continue;
+        }
+        match &r.role {
+            Role::Temperature => temperature = Some((i, r.unit.to_si)),
+            Role::Other(name) => channels.push((i, name.clone(), r.clone())),
+            role if role.is_coordinate() => {
+                channels.push((i, role.name(), r.clone()));
+            }
+            role => channels.push((i, role.name(), r.clone())),
+        }
+    }
+    if channels.is_empty() {
+        return Err(columns_err(
+            "no data column besides the coordinates".into(),
+            "at least one of rxx_ohm, rxy_ohm, sxx, sxy or another numeric column",
+        ));
+    }
+    Ok(Layout {
+        coord_info: [roles[coords[0]].clone(), roles[coords[1]].clone()],
+        headers,
+        delimiter,
+        coords,
+        channels,
+        temperature,
     })
+}
+
+/// Points parsed from one piece of a block, in file order.
+#[derive(Default)]
+struct Piece {
+    a: Vec<f64>,
+    b: Vec<f64>,
+    values: Vec<Vec<f64>>,
+    temperature: Vec<f64>,
+    lines: Vec<usize>,
+    /// Number of line ends in the piece.
+    line_ends: usize,
+}
+
+struct ParseCtx<'a> {
+    path: &'a Path,
+    layout: &'a Layout,
+    /// For each header column: None (skip), or Some(slot): 0 = a, 1 = b, 2.. = channel, usize::MAX = temperature.
+    slots: Vec<Option<usize>>,
+    scales: Vec<f64>,
+}
+
+#[inline]
+fn parse_number(field: &[u8]) -> Option<f64> {
+    let mut s = field;
+    while let [b' ' | b'"', rest @ ..] = s {
+        s = rest;
+    }
+    while let [rest @ .., b' ' | b'"' | b'\r'] = s {
+        s = rest;
+    }
+    if s.is_empty() {
+        return Some(f64::NAN);
+    }
+    fast_float2::parse::<f64, _>(s).ok()
+}
+
+impl ParseCtx<'_> {
+    fn parse_piece(&self, bytes: &[u8], first_line: usize) -> Result<Piece> {
+        let nch = self.layout.channels.len();
+        let mut p = Piece {
+            values: vec![Vec::new(); nch],
+            ..Piece::default()
+        };
+        let est = bytes.len() / 40 + 1;
+        p.a.reserve(est);
+        p.b.reserve(est);
+        for v in &mut p.values {
+            v.reserve(est);
+        }
+        let nfields = self.layout.headers.len();
+        let mut line_no = first_line;
+        let mut row = vec![f64::NAN; nch + 3];
+        for line in bytes.split(|&c| c == b'\n') {
+            line_no += 1;
+            let line = line.strip_suffix(b"\r").unwrap_or(line);
+            let trimmed = line.trim_ascii_start();
+            if trimmed.is_empty() || trimmed[0] == b'#' {
+                continue;
+            }
+            let mut count = 0usize;
+            let mut handle = |idx: usize, field: &[u8]| -> Result<()> {
+                if idx < nfields {
+                    if let Some(slot) = self.slots[idx] {
+                        let v = parse_number(field)
+                            .ok_or_else(|| self.bad_cell(line, line_no, idx, field))?;
+                        let k = if slot == usize::MAX { nch + 2 } else { slot };
+                        row[k] = v * self.scales[idx];
+                    }
+                }
+                Ok(())
+            };
+            match self.layout.delimiter {
+                Delimiter::Byte(d) => {
+                    let mut rest = line;
+                    loop {
+                        match memchr::memchr(d, rest) {
+                            Some(i) => {
+                                handle(count, &rest[..i])?;
+                                count += 1;
+                                rest = &rest[i + 1..];
+                            }
+                            None => {
+                                handle(count, rest)?;
+                                count += 1;
+                                break;
+                            }
+                        }
+                    }
+                }
+                Delimiter::Blanks => {
+                    for f in line
+                        .split(|&c| c == b' ' || c == b'\t')
+                        .filter(|f| !f.is_empty())
+                    {
+                        handle(count, f)?;
+                        count += 1;
+                    }
+                }
+            }
+            if count != nfields {
+                return Err(self.bad_count(line, line_no, count));
+            }
+            p.a.push(row[0]);
+            p.b.push(row[1]);
+            for (c, v) in p.values.iter_mut().enumerate() {
+                v.push(row[2 + c]);
+            }
+            if self.layout.temperature.is_some() {
+                p.temperature.push(row[nch + 2]);
+            }
+            p.lines.push(line_no);
+        }
+        // `split` yields one more item than there are line ends.
+        p.line_ends = line_no - first_line - 1;
+        Ok(p)
+    }
+
+    fn other_delimiter(&self, line: &[u8]) -> Option<u8> {
+        let own = match self.layout.delimiter {
+            Delimiter::Byte(b) => b,
+            Delimiter::Blanks => return None,
+        };
+        [b',', b'\t', b';']
+            .into_iter()
+            .find(|&c| c != own && line.contains(&c))
+    }
+
+    fn mixed(&self, line_no: usize, other: u8) -> Error {
+        Error::MixedDelimiters {
+            path: self.path.to_path_buf(),
+            line: line_no,
+            expected: self.layout.delimiter.describe(),
+            found: Delimiter::Byte(other).describe(),
+        }
+    }
+
+    fn bad_cell(&self, line: &[u8], line_no: usize, idx: usize, field: &[u8]) -> Error {
+        if let Some(o) = self.other_delimiter(line) {
+            return self.mixed(line_no, o);
+        }
+        Error::NotANumber {
+            path: self.path.to_path_buf(),
+            line: line_no,
+            column: format!("{} (`{}`)", idx + 1, self.layout.headers[idx]),
+            text: String::from_utf8_lossy(field).trim().to_string(),
+        }
+    }
+
+    fn bad_count(&self, line: &[u8], line_no: usize, found: usize) -> Error {
+        if let Some(o) = self.other_delimiter(line) {
+            return self.mixed(line_no, o);
+        }
+        Error::FieldCount {
+            path: self.path.to_path_buf(),
+            line: line_no,
+            expected: self.layout.headers.len(),
+            found,
+        }
+    }
+}
+
+/// Cuts the point stream into sweeps: a new sweep starts where the stepped coordinate changes
+/// or the swept coordinate reverses direction.
+struct SweepCutter {
+    swept_is_a: Option<bool>,
+    tol: f64,
+    sweeps: Vec<RawSweep>,
+    current: Option<RawSweep>,
+    dir: i8,
+    nch: usize,
+    points: usize,
+}
+
+impl SweepCutter {
+    fn push_piece(&mut self, p: &Piece) {
+        let swept_is_a = *self.swept_is_a.get_or_insert_with(|| {
+            let changes = |v: &[f64]| v.windows(2).filter(|w| w[0] != w[1]).count();
+            changes(&p.a) >= changes(&p.b)
+        });
+        let (sw, st) = if swept_is_a {
+            (&p.a, &p.b)
+        } else {
+            (&p.b, &p.a)
+        };
+        self.points += sw.len();
+        for i in 0..sw.len() {
+            let (x, y) = (sw[i], st[i]);
+            let new = match &self.current {
+                None => true,
+                Some(cur) => {
+                    let last = *cur.swept.last().unwrap_or(&x);
+                    let same_step = (y - cur.step_value).abs() <= self.tol
+                        || (y.is_nan() && cur.step_value.is_nan());
+                    let step_changed = !same_step;
+                    let d = (x - last).signum() as i8;
+                    let reversed = x != last && self.dir != 0 && d != self.dir;
+                    step_changed || reversed
+                }
+            };
+            if new {
+                self.close();
+                self.current = Some(RawSweep {
+                    step_value: y,
+                    direction: SweepDirection::Unknown,
+                    first_line: p.lines[i],
+                    swept: Vec::new(),
+                    values: vec![Vec::new(); self.nch],
+                });
+                self.dir = 0;
+            }
+            let cur = self.current.as_mut().expect("sweep open");
+            if let Some(&last) = cur.swept.last() {
+                if self.dir == 0 && x != last && x.is_finite() && last.is_finite() {
+                    self.dir = if x > last { 1 } else { -1 };
+                }
+            }
+            cur.swept.push(x);
+            for c in 0..self.nch {
+                cur.values[c].push(p.values[c][i]);
+            }
+        }
+    }
+
+    fn close(&mut self) {
+        if let Some(mut s) = self.current.take() {
+            s.direction = match self.dir {
+                1 => SweepDirection::Up,
+                -1 => SweepDirection::Down,
+                _ => SweepDirection::Unknown,
+            };
+            self.sweeps.push(s);
+        }
+    }
+}
+
+/// Read the header: skips a BOM, blank and `#` lines. Returns the header text, the number of
+/// bytes consumed and the 1-based line number of the header.
+fn read_header(path: &Path, head: &[u8]) -> Result<(String, usize, usize)> {
+    let mut pos = if head.starts_with(b"\xEF\xBB\xBF") {
+        3
+    } else {
+        0
+    };
+    let mut line_no = 0;
+    loop {
+        if pos >= head.len() {
+            return Err(if head.iter().all(|b| b.is_ascii_whitespace()) {
+                Error::EmptyFile {
+                    path: path.to_path_buf(),
+                }
+            } else {
+                Error::HeaderOnly {
+                    path: path.to_path_buf(),
+                }
+            });
+        }
+        let end = memchr::memchr(b'\n', &head[pos..]).map_or(head.len(), |i| pos + i);
+        line_no += 1;
+        let line = &head[pos..end];
+        let line = line.strip_suffix(b"\r").unwrap_or(line);
+        let next = (end + 1).min(head.len());
+        let t = line.trim_ascii();
+        if !t.is_empty() && t[0] != b'#' {
+            let text = std::str::from_utf8(line).map_err(|_| Error::UnsupportedFormat {
+                path: path.to_path_buf(),
+                message: format!("line {line_no}: the header is not UTF-8 text"),
+            })?;
+            if end == head.len() && !head.ends_with(b"\n") {
+                // The header is the last thing in the file.
+                return Err(Error::HeaderOnly {
+                    path: path.to_path_buf(),
+                });
+            }
+            return Ok((text.to_string(), next, line_no));
+        }
+        pos = next;
+    }
+}
+
+/// Load a long-format delimited text file into a gridded [`Map`].
+pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<Map> {
+    let io = |source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let mut file = std::fs::File::open(path).map_err(io)?;
+    let total = file.metadata().map_err(io)?.len();
+    if total == 0 {
+        return Err(Error::EmptyFile {
+            path: path.to_path_buf(),
+        });
+    }
+    progress.start("reading", total);
+    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + (64 << 10));
+    // Read until the first block holds the header line.
+    fill(&mut file, &mut buf, BLOCK).map_err(io)?;
+    let (header, consumed, header_line) = read_header(path, &buf)?;
+    let lay = layout(path, &header, opts)?;
+    let mut slots = vec![None; lay.headers.len()];
+    let mut scales = vec![1.0; lay.headers.len()];
+    slots[lay.coords[0]] = Some(0);
+    slots[lay.coords[1]] = Some(1);
+    scales[lay.coords[0]] = lay.coord_info[0].unit.to_si;
+    scales[lay.coords[1]] = lay.coord_info[1].unit.to_si;
+    for (k, (i, _, r)) in lay.channels.iter().enumerate() {
+        slots[*i] = Some(2 + k);
+        scales[*i] = r.unit.to_si;
+    }
+    if let Some((i, s)) = lay.temperature {
+        slots[i] = Some(usize::MAX);
+        scales[i] = s;
+    }
+    let ctx = ParseCtx {
+        path,
+        layout: &lay,
+        slots,
+        scales,
+    };
+    let mut cutter = SweepCutter {
+        swept_is_a: None,
+        tol: opts.grid.step_tolerance.unwrap_or(0.0),
+        sweeps: Vec::new(),
+        current: None,
+        dir: 0,
+        nch: lay.channels.len(),
+        points: 0,
+    };
+    let mut temps = (0.0f64, 0usize);
+    let mut line_base = header_line;
+    let mut done_bytes = consumed as u64;
+    buf.drain(..consumed);
+    let mut eof = false;
+    loop {
+        if !eof {
+            eof = fill(&mut file, &mut buf, BLOCK).map_err(io)?;
+        }
+        // Parse complete lines only; keep the tail for the next block.
+        let cut = if eof {
+            buf.len()
+        } else {
+            match memchr::memrchr(b'\n', &buf) {
+                Some(i) => i + 1,
+                None => {
+                    if buf.len() > 64 << 20 {
+                        return Err(Error::UnsupportedFormat {
+                            path: path.to_path_buf(),
+                            message: format!("line {} is longer than 64 MiB", line_base + 1),
+                        });
+                    }
+                    continue;
+                }
+            }
+        };
+        let block = &buf[..cut];
+        if !block.is_empty() {
+            let mid = if block.len() > 1 << 16 {
+                memchr::memchr(b'\n', &block[block.len() / 2..])
+                    .map_or(block.len(), |i| block.len() / 2 + i + 1)
+            } else {
+                block.len()
+            };
+            let (first, second) = block.split_at(mid);
+            let first_ends = memchr::memchr_iter(b'\n', first).count();
+            let (p1, p2) = rayon::join(
+                || ctx.parse_piece(first, line_base),
+                || ctx.parse_piece(second, line_base + first_ends),
+            );
+            let (p1, p2) = (p1?, p2?);
+            for p in [&p1, &p2] {
+                cutter.push_piece(p);
+                for &t in &p.temperature {
+                    if t.is_finite() {
+                        temps = (temps.0 + t, temps.1 + 1);
+                    }
+                }
+            }
+            line_base += p1.line_ends + p2.line_ends;
+        }
+        done_bytes += cut as u64;
+        progress.set(done_bytes);
+        buf.drain(..cut);
+        if eof && buf.is_empty() {
+            break;
+        }
+    }
+    progress.finish();
+    cutter.close();
+    if cutter.points == 0 {
+        return Err(Error::HeaderOnly {
+            path: path.to_path_buf(),
+        });
+    }
+    let swept_is_a = cutter.swept_is_a.unwrap_or(true);
+    let (swept_i, stepped_i) = if swept_is_a { (0, 1) } else { (1, 0) };
+    let quantity = |k: usize| {
+        lay.coord_info[k]
+            .role
+            .quantity()
+            .unwrap_or(crate::map::Quantity::Other)
+    };
+    // Gate-like coordinates go on x, so a field sweep at fixed gate ends up transposed.
+    let swept_on_x = swept_i == 0;
+    let set = SweepSet {
+        context: path.display().to_string(),
+        swept_name: lay.headers[lay.coords[swept_i]].clone(),
+        swept_quantity: quantity(swept_i),
+        stepped_name: lay.headers[lay.coords[stepped_i]].clone(),
+        stepped_quantity: quantity(stepped_i),
+        channels: lay
+            .channels
+            .iter()
+            .map(|(_, name, r)| {
+                let kind = r.role.channel_kind();
+                let unit = if kind == ChannelKind::Other {
+                    r.unit.dimension.si_symbol().to_string()
+                } else {
+                    String::new()
+                };
+                (name.clone(), kind, unit)
+            })
+            .collect(),
+        sweeps: cutter.sweeps,
+    };
+    let mut map = grid_sweeps(set, swept_on_x, &opts.grid, opts.duplicates)
+        .map_err(|e| with_path(e, path))?;
+    map.meta.columns = {
+        let mut c = vec![
+            (
+                lay.coord_info[0].role.name(),
+                lay.headers[lay.coords[0]].clone(),
+            ),
+            (
+                lay.coord_info[1].role.name(),
+                lay.headers[lay.coords[1]].clone(),
+            ),
+        ];
+        c.extend(
+            lay.channels
+                .iter()
+                .map(|(i, name, _)| (name.clone(), lay.headers[*i].clone())),
+        );
+        c
+    };
+    if temps.1 > 0 {
+        map.meta.temperature_k = Some(temps.0 / temps.1 as f64);
+    }
+    map.meta
+        .notes
+        .push(format!("delimiter: {}", lay.delimiter.describe()));
+    Ok(map)
+}
+
+fn with_path(e: Error, path: &Path) -> Error {
+    match e {
+        Error::DuplicatePoints {
+            count, line, axes, ..
+        } => Error::DuplicatePoints {
+            path: PathBuf::from(path),
+            count,
+            line,
+            axes,
+        },
+        other => other,
+    }
+}
+
+/// Append up to `want` bytes to `buf`; true at end of file.
+fn fill(file: &mut std::fs::File, buf: &mut Vec<u8>, want: usize) -> std::io::Result<bool> {
+    let start = buf.len();
+    buf.resize(start + want, 0);
+    let mut got = 0;
+    while got < want {
+        match file.read(&mut buf[start + got..]) {
+            Ok(0) => {
+                buf.truncate(start + got);
+                return Ok(true);
+            }
+            Ok(n) => got += n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
+            Err(e) => {
+                buf.truncate(start + got);
+                return Err(e);
+            }
+        }
+    }
+    buf.truncate(start + got);
+    Ok(false)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::{load_map, DuplicatePolicy, LoadOptions};
+    use crate::map::Quantity;
+    use crate::progress::NoProgress;
+
+    fn write(dir: &tempfile::TempDir, name: &str, text: &str) -> std::path::PathBuf {
+        let p = dir.path().join(name);
+        std::fs::write(&p, text).unwrap();
+        p
+    }
+
+    fn load_text(text: &str) -> Result<Map> {
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "m.csv", text);
+        load_map(&p, &LoadOptions::default(), &NoProgress)
+    }
+
+    fn err_text(text: &str) -> String {
+        load_text(text).unwrap_err().to_string()
+    }
+
+    /// A regular 3 × 2 map: gate fastest, two field rows.
+    const REGULAR: &str = "vg_V,b_T,rxx_ohm,rxy_kohm\n\
+        -1,0.5,100,1\n0,0.5,110,2\n1,0.5,120,3\n\
+        -1,1.0,200,4\n0,1.0,210,5\n1,1.0,220,6\n";
+
+    #[test]
+    fn regular_file_is_exact_and_converted_to_si() {
+        let m = load_text(REGULAR).unwrap();
+        assert_eq!(m.shape(), (2, 3));
+        assert_eq!(m.x().quantity, Quantity::Gate);
+        assert_eq!(m.y().quantity, Quantity::Field);
+        assert_eq!(m.x().values(), &[-1.0, 0.0, 1.0]);
+        assert_eq!(m.y().values(), &[0.5, 1.0]);
+        let rxy = m.channel("rxy").unwrap();
+        // kΩ → Ω.
+        assert_eq!(rxy.data[[1, 2]], 6000.0);
+        assert_eq!(m.channel("rxx").unwrap().data[[0, 1]], 110.0);
+        let g = m.meta.gridding.as_ref().unwrap();
+        assert!(g.exact);
+        assert_eq!((g.sweeps, g.rows, g.columns, g.points_read), (2, 2, 3, 6));
+        assert!(matches!(m.raw, crate::map::RawPoints::GridIsExact));
+    }
+
+    #[test]
+    fn tsv_semicolon_blanks_bom_crlf_comments() {
+        let tsv = REGULAR.replace(',', "\t");
+        assert_eq!(load_text(&tsv).unwrap().shape(), (2, 3));
+        let semi = REGULAR.replace(',', ";");
+        assert_eq!(load_text(&semi).unwrap().shape(), (2, 3));
+        let blanks = REGULAR.replace(',', "  ");
+        assert_eq!(load_text(&blanks).unwrap().shape(), (2, 3));
+        let crlf = format!(
+            "\u{feff}# device wren, cooldown 3\n\n{}",
+            REGULAR.replace('\n', "\r\n")
+        );
+        let m = load_text(&crlf).unwrap();
+        assert_eq!(m.channel("rxy").unwrap().data[[0, 0]], 1000.0);
+        let commented = REGULAR.replace("0,1.0,210,5\n", "# a note\n0,1.0,210,5\n\n");
+        assert_eq!(
+            load_text(&commented).unwrap().channel("rxx").unwrap().data[[1, 1]],
+            210.0
+        );
+    }
+
+    #[test]
+    fn field_sweeps_at_fixed_gate_are_transposed_onto_gate_columns() {
+        // Field varies fastest: each gate value is one field sweep.
+        let t = "gate_mV,field_mT,rxx\n-500,0,1\n-500,100,2\n-500,200,3\n500,0,4\n500,100,5\n500,200,6\n";
+        let m = load_text(t).unwrap();
+        assert_eq!(m.x().quantity, Quantity::Gate);
+        assert_eq!(m.x().values(), &[-0.5, 0.5]);
+        assert!((m.y().values()[2] - 0.2).abs() < 1e-15);
+        assert_eq!(m.shape(), (3, 2));
+        assert_eq!(m.channel("rxx").unwrap().data[[2, 1]], 6.0);
+    }
+
+    #[test]
+    fn zero_field_is_legal_data() {
+        let t = "vg_V,b_T,rxx_ohm\n0,0,5\n1,0,6\n0,1,7\n1,1,8\n";
+        let m = load_text(t).unwrap();
+        assert_eq!(m.y().values(), &[0.0, 1.0]);
+    }
+
+    #[test]
+    fn empty_and_header_only() {
+        assert!(err_text("").contains("empty"));
+        assert!(err_text("\n\n").contains("empty"));
+        assert!(err_text("vg_V,b_T,rxx_ohm\n").contains("header but no data"));
+        assert!(err_text("vg_V,b_T,rxx_ohm").contains("header but no data"));
+        assert!(err_text("# only a comment\nvg_V,b_T,rxx_ohm\n# end\n").contains("no data"));
+    }
+
+    #[test]
+    fn missing_columns_list_what_was_found_and_needed() {
+        let e = err_text("time_s,rxx_ohm\n0,1\n");
+        assert!(e.contains("time_s, rxx_ohm"), "{e}");
+        assert!(e.contains("gate"), "{e}");
+        let e = err_text("vg_V,b_T\n0,1\n");
+        assert!(e.contains("no data column"), "{e}");
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "m.csv", REGULAR);
+        let opts = LoadOptions {
+            columns: vec![(Role::Gate, "V1".into())],
+            ..LoadOptions::default()
+        };
+        let e = load_map(&p, &opts, &NoProgress).unwrap_err().to_string();
+        assert!(e.contains("`V1`") && e.contains("vg_V"), "{e}");
+    }
+
+    #[test]
+    fn explicit_mapping_overrides_names() {
+        let t = "V1,Bmag,R4pt,R_other\n0,1,5,7\n1,1,6,8\n";
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "m.csv", t);
+        let opts = LoadOptions {
+            columns: crate::io::columns::parse_mapping("gate=V1,field=Bmag,rxx=R4pt").unwrap(),
+            ..LoadOptions::default()
+        };
+        let m = load_map(&p, &opts, &NoProgress).unwrap();
+        assert_eq!(m.channel("rxx").unwrap().data[[0, 1]], 6.0);
+        assert_eq!(m.channel("R_other").unwrap().data[[0, 0]], 7.0);
+    }
+
+    #[test]
+    fn non_numeric_cell_names_line_column_and_text() {
+        let t = REGULAR.replace("0,1.0,210,5", "0,1.0,2l0,5");
+        let e = err_text(&t);
+        assert!(e.contains("m.csv:6:"), "{e}");
+        assert!(e.contains("rxx_ohm") && e.contains("`2l0`"), "{e}");
+    }
+
+    #[test]
+    fn wrong_field_count_and_mixed_delimiters() {
+        let t = REGULAR.replace("1,1.0,220,6", "1,1.0,220");
+        let e = err_text(&t);
+        assert!(
+            e.contains(":7:") && e.contains("3 fields") && e.contains("has 4"),
+            "{e}"
+        );
+        let t = REGULAR.replace("0,1.0,210,5", "0\t1.0\t210\t5");
+        let e = err_text(&t);
+        assert!(e.contains("mixed delimiters") && e.contains(":6:"), "{e}");
+    }
+
+    #[test]
+    fn duplicate_points_average_or_error() {
+        let t = format!("{REGULAR}0,1.0,230,5\n");
+        // The repeated point (0 V, 1 T) comes after the sweep ended: a new sweep at the same
+        // field, merged into one row by averaging.
+        let m = load_text(&t).unwrap();
+        let g = m.meta.gridding.clone().unwrap();
+        assert_eq!(g.rows, 2);
+        assert_eq!(g.rows_merged, 1);
+        assert_eq!(m.channel("rxx").unwrap().data[[1, 1]], 220.0);
+        // Within one sweep: a point measured twice.
+        let t = "vg_V,b_T,rxx_ohm\n0,1,10\n1,1,20\n1,1,40\n2,1,50\n";
+        let m = load_text(t).unwrap();
+        assert_eq!(m.meta.gridding.as_ref().unwrap().duplicates_averaged, 1);
+        assert_eq!(m.channel("rxx").unwrap().data[[0, 1]], 30.0);
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "d.csv", t);
+        let opts = LoadOptions {
+            duplicates: DuplicatePolicy::Error,
+            ..LoadOptions::default()
+        };
+        let e = load_map(&p, &opts, &NoProgress).unwrap_err().to_string();
+        assert!(
+            e.contains("d.csv") && e.contains("duplicate") && e.contains("line 4"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn directories_and_missing_paths() {
+        let dir = tempfile::tempdir().unwrap();
+        let e = load_map(dir.path(), &LoadOptions::default(), &NoProgress)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("is a directory"), "{e}");
+        let e = load_map(
+            &dir.path().join("nope.csv"),
+            &LoadOptions::default(),
+            &NoProgress,
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("nope.csv"), "{e}");
+    }
+
+    #[test]
+    fn unit_that_does_not_fit_is_refused() {
+        let e = err_text("vg_V,b_T,rxx_V\n0,1,2\n");
+        assert!(e.contains("rxx_V"), "{e}");
+    }
+
+    #[test]
+    fn temperature_column_is_recorded() {
+        let t = "vg_V,b_T,T_K,rxx_ohm\n0,1,1.5,5\n1,1,1.7,6\n";
+        let m = load_text(t).unwrap();
+        assert!((m.meta.temperature_k.unwrap() - 1.6).abs() < 1e-12);
+        assert!(m.channel("rxx").is_some());
+    }
+
+    #[test]
+    fn blocks_split_anywhere_parse_the_same() {
+        // A file larger than the two-way split threshold, so pieces and line counts are used.
+        let mut t = String::from("vg_V,b_T,rxx_ohm\n");
+        for j in 0..40 {
+            for i in 0..2000 {
+                t.push_str(&format!(
+                    "{},{},{}\n",
+                    i as f64 * 0.01,
+                    j as f64 * 0.25,
+                    i + j
+                ));
+            }
+        }
+        let m = load_text(&t).unwrap();
+        assert_eq!(m.shape(), (40, 2000));
+        assert_eq!(m.channel("rxx").unwrap().data[[39, 1999]], 2038.0);
+        let bad = t.replacen("1999", "19x9", 1);
+        let e = load_text(&bad).unwrap_err().to_string();
+        // The first "1999" is in the rxx column of line (1 + 1999 + 1) = 2001.
+        assert!(e.contains(":2001:"), "{e}");
+    }
 }
