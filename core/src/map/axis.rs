@@ -44,6 +44,15 @@ impl Quantity {
             Quantity::Other => "",
         }
     }
+    /// The unit a physicist reads this quantity in, and the factor that divides an SI value to
+    /// get it: densities in 10¹² cm⁻², D/ε₀ in V/nm, everything else in its SI unit.
+    pub fn display_unit(self) -> (&'static str, f64) {
+        match self {
+            Quantity::Density => ("10¹² cm⁻²", 1e16),
+            Quantity::Displacement => ("V/nm", 1e9),
+            q => (q.si_unit(), 1.0),
+        }
+    }
     /// The usual symbol, e.g. `V_g`, `B`, `n`, `ν`.
     pub fn symbol(self) -> &'static str {
         match self {
