@@ -40,9 +40,16 @@ fn sweeps(jitter: bool) -> Vec<RawSweep> {
                 .collect();
             let rxx = swept
                 .iter()
-                .map(|&v| 3000.0 / (1.0 + (v / 5.0).powi(2)).sqrt() + 800.0 * (v * b / 3.0).cos().abs() + rnd())
+                .map(|&v| {
+                    3000.0 / (1.0 + (v / 5.0).powi(2)).sqrt()
+                        + 800.0 * (v * b / 3.0).cos().abs()
+                        + rnd()
+                })
                 .collect();
-            let rxy = swept.iter().map(|&v| 25812.807 * b / (v.abs() + 1.0) + rnd()).collect();
+            let rxy = swept
+                .iter()
+                .map(|&v| 25812.807 * b / (v.abs() + 1.0) + rnd())
+                .collect();
             RawSweep {
                 step_value: b,
                 direction: SweepDirection::Up,
@@ -69,7 +76,10 @@ fn median(mut v: Vec<f64>) -> f64 {
 }
 
 fn main() {
-    let args: Vec<String> = std::env::args().skip(1).filter(|a| a != "--bench").collect();
+    let args: Vec<String> = std::env::args()
+        .skip(1)
+        .filter(|a| a != "--bench")
+        .collect();
     if args.first().map(String::as_str) == Some("--generate") {
         let text = long_csv_text(
             &["vg_V", "b_T", "rxx_ohm", "rxy_ohm"],
@@ -85,7 +95,11 @@ fn main() {
         let m = load_map(Path::new(&args[1]), &LoadOptions::default(), &NoProgress).expect("load");
         let dt = t.elapsed().as_secs_f64();
         let bytes: usize = m.channels().iter().map(|c| c.data.len() * 8).sum();
-        println!("{dt} {} {}", peak_rss_mib(), bytes as f64 / (1 << 20) as f64);
+        println!(
+            "{dt} {} {}",
+            peak_rss_mib(),
+            bytes as f64 / (1 << 20) as f64
+        );
         return;
     }
     let exe = std::env::current_exe().expect("own path");
@@ -95,8 +109,15 @@ fn main() {
             let p = std::env::temp_dir().join("fanmark-bench-4000x1000.csv");
             if !p.exists() {
                 eprintln!("writing {}", p.display());
-                let ok = Command::new(&exe).arg("--generate").arg(&p).status().map(|s| s.success());
-                assert!(matches!(ok, Ok(true)), "generating the benchmark file failed");
+                let ok = Command::new(&exe)
+                    .arg("--generate")
+                    .arg(&p)
+                    .status()
+                    .map(|s| s.success());
+                assert!(
+                    matches!(ok, Ok(true)),
+                    "generating the benchmark file failed"
+                );
             }
             p
         }
@@ -109,18 +130,36 @@ fn main() {
     let mut peak = 0.0f64;
     let mut grid_mib = 0.0;
     for _ in 0..5 {
-        let out = Command::new(&exe).arg("--load-once").arg(&path).output().expect("child");
+        let out = Command::new(&exe)
+            .arg("--load-once")
+            .arg(&path)
+            .output()
+            .expect("child");
         let s = String::from_utf8_lossy(&out.stdout);
-        let f: Vec<f64> = s.split_whitespace().filter_map(|x| x.parse().ok()).collect();
-        assert_eq!(f.len(), 3, "child failed: {}", String::from_utf8_lossy(&out.stderr));
+        let f: Vec<f64> = s
+            .split_whitespace()
+            .filter_map(|x| x.parse().ok())
+            .collect();
+        assert_eq!(
+            f.len(),
+            3,
+            "child failed: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
         times.push(f[0]);
         peak = peak.max(f[1]);
         grid_mib = f[2];
     }
     let t = median(times);
-    println!("file            {} ({mb:.1} MB, {NX} × {NY} points)", path.display());
+    println!(
+        "file            {} ({mb:.1} MB, {NX} × {NY} points)",
+        path.display()
+    );
     println!("load (parse+grid) median {:.3} s  →  {:.0} MB/s", t, mb / t);
-    println!("peak RSS        {peak:.0} MiB  (gridded data {grid_mib:.0} MiB, ratio {:.2})", peak / grid_mib);
+    println!(
+        "peak RSS        {peak:.0} MiB  (gridded data {grid_mib:.0} MiB, ratio {:.2})",
+        peak / grid_mib
+    );
     // Gridding alone, regular and ragged (jittered sweep points → interpolation).
     for (name, jitter) in [("regular", false), ("ragged", true)] {
         let mut ts = Vec::new();
@@ -147,9 +186,17 @@ fn main() {
     }
     // pandas on the same file, same run.
     let py = "import sys,time\nimport pandas as pd\nts=[]\nfor _ in range(3):\n    t=time.perf_counter(); pd.read_csv(sys.argv[1]); ts.append(time.perf_counter()-t)\nts.sort(); print(ts[1])";
-    match Command::new("python3").arg("-c").arg(py).arg(&path).output() {
+    match Command::new("python3")
+        .arg("-c")
+        .arg(py)
+        .arg(&path)
+        .output()
+    {
         Ok(o) if o.status.success() => {
-            let tp: f64 = String::from_utf8_lossy(&o.stdout).trim().parse().unwrap_or(f64::NAN);
+            let tp: f64 = String::from_utf8_lossy(&o.stdout)
+                .trim()
+                .parse()
+                .unwrap_or(f64::NAN);
             println!(
                 "pandas read_csv median {:.3} s  →  {:.0} MB/s;  fanmark/pandas throughput ratio {:.2}",
                 tp,

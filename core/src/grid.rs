@@ -752,6 +752,46 @@ fn grid_regular(
         row_values.push(s.step_value);
         row_dirs.push(s.direction);
     }
+    let rows = RegularRows {
+        axis,
+        values,
+        row_values,
+        row_dirs,
+        spans,
+        points_read,
+    };
+    finish_regular(parts, rows, swept_on_x, opts)
+}
+
+/// Channel values already laid out row by row on the common axis.
+struct RegularRows {
+    axis: Vec<f64>,
+    values: Vec<Vec<f64>>,
+    row_values: Vec<f64>,
+    row_dirs: Vec<SweepDirection>,
+    spans: Vec<usize>,
+    points_read: usize,
+}
+
+/// Glitch check, axes, channels and report for rows on an exact grid.
+fn finish_regular(
+    parts: FastParts,
+    rows: RegularRows,
+    swept_on_x: bool,
+    opts: &GridOptions,
+) -> Map {
+    let RegularRows {
+        axis,
+        mut values,
+        row_values,
+        row_dirs,
+        spans,
+        points_read,
+    } = rows;
+    let nch = values.len();
+    let ncol = axis.len();
+    let nrow = row_values.len();
+    debug_assert!(values.iter().all(|v| v.len() == nrow * ncol) && nch == parts.channels.len());
     let mut removed = Vec::new();
     for (c, v) in values.iter_mut().enumerate() {
         let found: Vec<(usize, Vec<usize>)> = v
@@ -1042,4 +1082,138 @@ mod tests {
         assert!(d[[4, 45]].is_nan());
         assert_eq!(d[[4, 29]], f(xs[29], 4.0));
     }
+}
+
+/// One sweep's place in a [`FlatSweeps`] store.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepSpan {
+    /// Index of the sweep's first point in the flat vectors.
+    pub start: usize,
+    /// Number of points.
+    pub len: usize,
+    /// Stepped coordinate during the sweep (SI).
+    pub step_value: f64,
+    /// Direction of the sweep.
+    pub direction: SweepDirection,
+    /// 1-based line of the file where the sweep starts.
+    pub first_line: usize,
+}
+
+/// Sweeps stored as flat columns in measurement order (how loaders read them): one vector for
+/// the swept coordinate, one per channel, and the span of each sweep.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct FlatSweeps {
+    /// Swept coordinate of every point (SI).
+    pub swept: Vec<f64>,
+    /// Channel values of every point, one vector per channel (SI).
+    pub values: Vec<Vec<f64>>,
+    /// Where each sweep lies.
+    pub spans: Vec<SweepSpan>,
+}
+
+impl FlatSweeps {
+    /// The sweeps as separate [`RawSweep`]s (consumes the store).
+    pub fn into_sweeps(self) -> Vec<RawSweep> {
+        let FlatSweeps {
+            swept,
+            values,
+            spans,
+        } = self;
+        spans
+            .into_iter()
+            .map(|sp| RawSweep {
+                step_value: sp.step_value,
+                direction: sp.direction,
+                first_line: sp.first_line,
+                swept: swept[sp.start..sp.start + sp.len].to_vec(),
+                values: values
+                    .iter()
+                    .map(|v| v[sp.start..sp.start + sp.len].to_vec())
+                    .collect(),
+            })
+            .collect()
+    }
+
+    /// If the store already is a full regular grid — every sweep the same strictly monotone
+    /// points (to 10⁻⁶ of the step), stepped values strictly increasing in file order — the
+    /// common axis.
+    fn full_regular_axis(&self, step_tol: Option<f64>) -> Option<Vec<f64>> {
+        let first = self.spans.first()?;
+        let n = first.len;
+        if n < 2 || self.spans.iter().any(|s| s.len != n) {
+            return None;
+        }
+        let seg = |s: &SweepSpan| &self.swept[s.start..s.start + s.len];
+        let mut axis = seg(first).to_vec();
+        if axis[0] > axis[n - 1] {
+            axis.reverse();
+        }
+        if axis.windows(2).any(|w| !(w[1] > w[0])) {
+            return None;
+        }
+        let tol = 1e-6 * (axis[n - 1] - axis[0]) / (n - 1) as f64;
+        let ok = self.spans.par_iter().all(|s| {
+            let x = seg(s);
+            let up = x[n - 1] > x[0];
+            (0..n).all(|k| {
+                let v = if up { x[k] } else { x[n - 1 - k] };
+                (v - axis[k]).abs() <= tol
+            }) && s.step_value.is_finite()
+        });
+        if !ok {
+            return None;
+        }
+        let lo = self.spans[0].step_value;
+        let hi = self.spans[self.spans.len() - 1].step_value;
+        let st = step_tol.unwrap_or(1e-6 * (hi - lo).abs());
+        self.spans
+            .windows(2)
+            .all(|w| w[1].step_value - w[0].step_value > st)
+            .then_some(axis)
+    }
+}
+
+/// Grid sweeps held in a [`FlatSweeps`] store. A file that is already a full regular grid in
+/// field order is taken without copying the values; anything else goes through
+/// [`grid_sweeps`].
+pub fn grid_flat(
+    set: SweepSet,
+    flat: FlatSweeps,
+    swept_on_x: bool,
+    opts: &GridOptions,
+    duplicates: DuplicatePolicy,
+) -> Result<Map> {
+    if opts.step.is_none() {
+        if let Some(axis) = flat.full_regular_axis(opts.step_tolerance) {
+            let FlatSweeps {
+                swept,
+                mut values,
+                spans,
+            } = flat;
+            drop(swept);
+            for sp in spans.iter().filter(|s| s.direction == SweepDirection::Down) {
+                for v in &mut values {
+                    v[sp.start..sp.start + sp.len].reverse();
+                }
+            }
+            let parts = FastParts {
+                swept_name: set.swept_name,
+                swept_quantity: set.swept_quantity,
+                stepped_name: set.stepped_name,
+                stepped_quantity: set.stepped_quantity,
+                channels: set.channels,
+            };
+            let rows = RegularRows {
+                points_read: spans.iter().map(|s| s.len).sum(),
+                spans: spans.iter().map(|s| s.len).collect(),
+                row_values: spans.iter().map(|s| s.step_value).collect(),
+                row_dirs: spans.iter().map(|s| s.direction).collect(),
+                axis,
+                values,
+            };
+            return Ok(finish_regular(parts, rows, swept_on_x, opts));
+        }
+    }
+    let sweeps = flat.into_sweeps();
+    grid_sweeps(SweepSet { sweeps, ..set }, swept_on_x, opts, duplicates)
 }

@@ -133,7 +133,11 @@ pub fn text(r: &Report) -> String {
     };
     line(format!("file      {}", r.file));
     if !r.columns.is_empty() {
-        let cols: Vec<String> = r.columns.iter().map(|(a, b)| format!("{a} ← {b}")).collect();
+        let cols: Vec<String> = r
+            .columns
+            .iter()
+            .map(|(a, b)| format!("{a} ← {b}"))
+            .collect();
         line(format!("columns   {}", cols.join(", ")));
     }
     for (tag, a) in [("x", &r.x), ("y", &r.y)] {
@@ -155,7 +159,10 @@ pub fn text(r: &Report) -> String {
             (Some(lo), Some(hi)) => format!("{} … {} {}", g(lo), g(hi), c.unit),
             _ => "no finite values".into(),
         };
-        line(format!("channel   {}: {range}, {} NaN", c.name, c.nan_count));
+        line(format!(
+            "channel   {}: {range}, {} NaN",
+            c.name, c.nan_count
+        ));
     }
     line(format!(
         "rows      {} up, {} down, {} unknown direction",

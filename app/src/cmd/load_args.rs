@@ -2,7 +2,9 @@
 
 use anyhow::{bail, Context};
 use fanmark_core::grid::GridOptions;
-use fanmark_core::io::{columns::parse_mapping, DuplicatePolicy, Format, LoadOptions, MatrixOptions};
+use fanmark_core::io::{
+    columns::parse_mapping, DuplicatePolicy, Format, LoadOptions, MatrixOptions,
+};
 use std::path::PathBuf;
 
 /// How to read the data file.

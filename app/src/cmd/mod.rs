@@ -2,6 +2,6 @@
 
 pub mod demo;
 pub mod inspect;
-pub mod load_args;
 pub mod lines;
+pub mod load_args;
 pub mod synth;

@@ -9,8 +9,8 @@
 use super::columns::{recognise, Recognised, Role};
 use super::LoadOptions;
 use crate::error::{Error, Result};
-use crate::grid::{grid_sweeps, SweepSet};
-use crate::map::{ChannelKind, Map, RawSweep, SweepDirection};
+use crate::grid::{grid_flat, FlatSweeps, SweepSet, SweepSpan};
+use crate::map::{ChannelKind, Map, SweepDirection};
 use crate::progress::Progress;
 use std::io::Read;
 use std::path::{Path, PathBuf};
@@ -353,10 +353,10 @@ impl ParseCtx<'_> {
 struct SweepCutter {
     swept_is_a: Option<bool>,
     tol: f64,
-    sweeps: Vec<RawSweep>,
-    current: Option<RawSweep>,
+    flat: FlatSweeps,
+    /// The open sweep (its span grows as points arrive).
+    current: Option<SweepSpan>,
     dir: i8,
-    nch: usize,
     points: usize,
 }
 
@@ -377,35 +377,36 @@ impl SweepCutter {
             let new = match &self.current {
                 None => true,
                 Some(cur) => {
-                    let last = *cur.swept.last().unwrap_or(&x);
+                    let last = self.flat.swept[cur.start + cur.len - 1];
                     let same_step = (y - cur.step_value).abs() <= self.tol
                         || (y.is_nan() && cur.step_value.is_nan());
-                    let step_changed = !same_step;
                     let d = (x - last).signum() as i8;
                     let reversed = x != last && self.dir != 0 && d != self.dir;
-                    step_changed || reversed
+                    !same_step || reversed
                 }
             };
             if new {
                 self.close();
-                self.current = Some(RawSweep {
+                self.current = Some(SweepSpan {
+                    start: self.flat.swept.len(),
+                    len: 0,
                     step_value: y,
                     direction: SweepDirection::Unknown,
                     first_line: p.lines[i],
-                    swept: Vec::new(),
-                    values: vec![Vec::new(); self.nch],
                 });
                 self.dir = 0;
             }
             let cur = self.current.as_mut().expect("sweep open");
-            if let Some(&last) = cur.swept.last() {
-                if self.dir == 0 && x != last && x.is_finite() && last.is_finite() {
+            if cur.len > 0 && self.dir == 0 {
+                let last = self.flat.swept[cur.start + cur.len - 1];
+                if x != last && x.is_finite() && last.is_finite() {
                     self.dir = if x > last { 1 } else { -1 };
                 }
             }
-            cur.swept.push(x);
-            for c in 0..self.nch {
-                cur.values[c].push(p.values[c][i]);
+            cur.len += 1;
+            self.flat.swept.push(x);
+            for (c, v) in self.flat.values.iter_mut().enumerate() {
+                v.push(p.values[c][i]);
             }
         }
     }
@@ -417,7 +418,7 @@ impl SweepCutter {
                 -1 => SweepDirection::Down,
                 _ => SweepDirection::Unknown,
             };
-            self.sweeps.push(s);
+            self.flat.spans.push(s);
         }
     }
 }
@@ -508,10 +509,12 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
     let mut cutter = SweepCutter {
         swept_is_a: None,
         tol: opts.grid.step_tolerance.unwrap_or(0.0),
-        sweeps: Vec::new(),
+        flat: FlatSweeps {
+            values: vec![Vec::new(); lay.channels.len()],
+            ..FlatSweeps::default()
+        },
         current: None,
         dir: 0,
-        nch: lay.channels.len(),
         points: 0,
     };
     let mut temps = (0.0f64, 0usize);
@@ -555,6 +558,16 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
                 || ctx.parse_piece(second, line_base + first_ends),
             );
             let (p1, p2) = (p1?, p2?);
+            if cutter.points == 0 {
+                // Reserve the whole file's worth of points once (estimated from the first
+                // block): untouched capacity costs no memory, repeated doubling would.
+                let rows = (p1.a.len() + p2.a.len()).max(1);
+                let est = (total as f64 / cut.max(1) as f64 * rows as f64 * 1.02) as usize;
+                cutter.flat.swept.reserve(est);
+                for v in &mut cutter.flat.values {
+                    v.reserve(est);
+                }
+            }
             for p in [&p1, &p2] {
                 cutter.push_piece(p);
                 for &t in &p.temperature {
@@ -608,9 +621,9 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
                 (name.clone(), kind, unit)
             })
             .collect(),
-        sweeps: cutter.sweeps,
+        sweeps: Vec::new(),
     };
-    let mut map = grid_sweeps(set, swept_on_x, &opts.grid, opts.duplicates)
+    let mut map = grid_flat(set, cutter.flat, swept_on_x, &opts.grid, opts.duplicates)
         .map_err(|e| with_path(e, path))?;
     map.meta.columns = {
         let mut c = vec![
