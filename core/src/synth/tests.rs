@@ -50,8 +50,14 @@ fn isolated_integer_states(s: &Synthesis, b: f64, gap: f64) -> Vec<usize> {
         .filter(|&j| {
             let st = &m.states[j];
             let vg = m.device.gate_for_density(m.line_density(j, b));
+            let ts = &s.truth.states[j];
+            // Well developed: activation factor exp(−(Δ−Γ)/(2k_BT)) below e⁻⁸.
+            let developed = (ts.gap_k.unwrap_or(0.0) - ts.broadening_k.unwrap_or(0.0))
+                / (2.0 * s.truth.temperature_k)
+                > 8.0;
             st.t.is_integer()
                 && !st.t.is_zero()
+                && developed
                 && s.truth.states[j].b_onset_t.is_some_and(|o| o < b)
                 && s.truth.states[j].b_max_t.is_some_and(|top| top >= b)
                 && (s.truth.config.gate_range_v.0..=s.truth.config.gate_range_v.1).contains(&vg)
@@ -66,12 +72,12 @@ fn isolated_integer_states(s: &Synthesis, b: f64, gap: f64) -> Vec<usize> {
 
 #[test]
 fn ideal_has_quantised_plateaus_and_minima_at_the_truth_states() {
-    for (device, b) in [(DeviceName::Wren, 14.0), (DeviceName::Tern, 16.0)] {
+    for (device, b) in [(DeviceName::Wren, 14.0), (DeviceName::Tern, 7.0)] {
         let s = generate(&SynthConfig::demo(device)).unwrap();
         let m = &s.model;
         let e_over_h = crate::constants::E_OVER_H;
         let checked = isolated_integer_states(&s, b, 0.6);
-        assert!(checked.len() >= 5, "{device}: only {} isolated states", checked.len());
+        assert!(checked.len() >= 4, "{device}: only {} isolated states", checked.len());
         for j in checked {
             let t = m.states[j].t.to_f64();
             let n = m.line_density(j, b);
@@ -84,15 +90,16 @@ fn ideal_has_quantised_plateaus_and_minima_at_the_truth_states() {
                 "{device} {}: R_xy {rxy} vs R_K/t {want}",
                 s.truth.states[j].label
             );
-            // R_xx is at a deep local minimum on the line.
-            let window: Vec<f64> = (-30..=30)
+            // R_xx is at a deep local minimum on the line (within ±2 in filling factor).
+            let window: Vec<f64> = (-100..=100)
                 .map(|i| {
-                    let dn = 0.6 * e_over_h * b * i as f64 / 30.0;
+                    let dn = 2.0 * e_over_h * b * i as f64 / 100.0;
                     s.ideal(m.device.gate_for_density(n + dn), b).0
                 })
                 .collect();
             let max = window.iter().cloned().fold(0.0, f64::max);
-            let min = window.iter().cloned().fold(f64::INFINITY, f64::min);
+            // Local minimum: nothing lower within ±0.6 in filling factor.
+            let min = window[70..=130].iter().cloned().fold(f64::INFINITY, f64::min);
             assert!(rxx <= min * 1.01 + 0.01, "{device} {}: {rxx} > {min}", s.truth.states[j].label);
             assert!(rxx < 0.05 * max, "{device} {}: dip {rxx} vs {max}", s.truth.states[j].label);
         }
