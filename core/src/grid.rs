@@ -13,8 +13,9 @@ use serde::{Deserialize, Serialize};
 pub struct GridOptions {
     /// Spacing of the common swept axis in SI units; default: the median step of the data.
     pub step: Option<f64>,
-    /// Remove single-point glitches (a point far from both neighbours, judged against the
-    /// row's robust noise) by setting them to NaN; they are counted in the report either way.
+    /// Set single-point glitches (see [`find_glitches`]) to NaN. Off by default: in coarsely
+    /// sampled data a real feature one point wide looks the same, so glitches are only counted
+    /// in the report unless asked.
     pub remove_glitches: bool,
     /// Two sweeps whose stepped values differ by less than this (SI) are the same row;
     /// default: 10⁻⁶ of the stepped range.
@@ -25,7 +26,7 @@ impl Default for GridOptions {
     fn default() -> Self {
         GridOptions {
             step: None,
-            remove_glitches: true,
+            remove_glitches: false,
             step_tolerance: None,
         }
     }
@@ -39,7 +40,7 @@ pub struct Hysteresis {
     pub shift: f64,
     /// Robust spread (1.4826 × median absolute deviation) of the per-pair shifts.
     pub spread: f64,
-    /// Number of adjacent up/down pairs used.
+    /// Number of rows whose two neighbours were swept the other way (estimates combined).
     pub pairs: usize,
 }
 
@@ -60,8 +61,10 @@ pub struct GridReport {
     pub duplicates_averaged: usize,
     /// Rows formed by averaging more than one sweep.
     pub rows_merged: usize,
-    /// Single-point glitches found (and removed when asked).
+    /// Single-point glitches found.
     pub glitches: usize,
+    /// Whether the glitches were set to NaN (`GridOptions::remove_glitches`).
+    pub glitches_removed: bool,
     /// Sweeps covering less than 80 % of the median sweep span (e.g. aborted).
     pub short_sweeps: usize,
     /// Grid cells left NaN per channel (outside a sweep's range, or NaN in the data).
@@ -181,33 +184,64 @@ fn clean_sweep(s: &RawSweep, remove_glitches: bool) -> Clean {
     }
 }
 
-/// Single-point glitches: a point whose second difference exceeds 25 robust standard
-/// deviations of the sweep's second differences while its two neighbours agree with each other
-/// (a lone spike, not a narrow feature spanning several points).
+/// Single-point glitches: a point far from the cubic through its two neighbours on each side
+/// (prediction (−y₋₂ + 4y₋₁ + 4y₊₁ − y₊₂)/6, exact on any cubic, so smooth flanks and peaks
+/// leave no residual) — more than 25 robust standard deviations of the residuals around it
+/// (±20 points, its own neighbourhood excluded), the largest residual within two points, and
+/// clear of both neighbours by more than twice their difference. A lone spike, not a narrow
+/// feature whose flanks are sampled.
 pub fn find_glitches(y: &[f64]) -> Vec<usize> {
     let n = y.len();
-    if n < 5 {
+    if n < 7 {
         return Vec::new();
     }
-    let d: Vec<f64> = (1..n - 1)
-        .map(|i| y[i] - 0.5 * (y[i - 1] + y[i + 1]))
+    let r: Vec<f64> = (0..n)
+        .map(|i| {
+            if i < 2 || i + 2 >= n {
+                return f64::NAN;
+            }
+            y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0
+        })
         .collect();
-    let mut a: Vec<f64> = d
-        .iter()
-        .filter(|v| v.is_finite())
-        .map(|v| v.abs())
-        .collect();
-    if a.len() < 3 {
-        return Vec::new();
-    }
-    let sigma = 1.4826 * median(&mut a);
-    if !(sigma > 0.0) {
-        return Vec::new();
-    }
-    (1..n - 1)
+    // Noise is judged locally (±20 points): measured noise often scales with the signal, so
+    // one figure for a whole sweep would call every point of a large peak a glitch.
+    const HALF: usize = 20;
+    let mut window: Vec<f64> = Vec::with_capacity(2 * HALF + 1);
+    (2..n - 2)
         .filter(|&i| {
-            let di = d[i - 1];
-            di.abs() > 25.0 * sigma && (y[i + 1] - y[i - 1]).abs() < 0.2 * di.abs()
+            let ri = r[i].abs();
+            if !ri.is_finite() {
+                return false;
+            }
+            let is_peak =
+                (i.saturating_sub(2)..=(i + 2).min(n - 1)).all(|j| j == i || !(r[j].abs() > ri));
+            if !is_peak {
+                return false;
+            }
+            window.clear();
+            let (lo, hi) = (i.saturating_sub(HALF), (i + HALF).min(n - 1));
+            window.extend(
+                (lo..=hi)
+                    .filter(|&j| j.abs_diff(i) > 2)
+                    .map(|j| r[j].abs())
+                    .filter(|v| v.is_finite()),
+            );
+            if window.len() < 8 {
+                return false;
+            }
+            let sigma = 1.4826 * median(&mut window);
+            // It must also stand clear of both neighbours by more than twice their own
+            // difference: a narrow real peak rises through its neighbours, a spike jumps past.
+            let (a, b) = (y[i - 1], y[i + 1]);
+            let excess = if r[i] > 0.0 {
+                y[i] - a.max(b)
+            } else {
+                a.min(b) - y[i]
+            };
+            sigma > 0.0
+                && ri > 25.0 * sigma
+                && excess > 2.0 * (b - a).abs()
+                && excess > 25.0 * sigma
         })
         .collect()
 }
@@ -274,37 +308,42 @@ fn common_exact_axis(cleaned: &[Clean]) -> Option<Vec<f64>> {
     ok.then_some(axis)
 }
 
-/// Estimate up/down hysteresis from adjacent rows of opposite direction: the shift (in grid
-/// steps, refined by a parabola) that best aligns the down row with the up row. Pairs where
-/// the down sweep comes after the up sweep and pairs where it comes before are averaged
-/// separately and then combined, which cancels the drift of features with the stepped value.
+/// Estimate up/down hysteresis from each row and its two neighbours of the opposite
+/// direction. A neighbour's shift relative to the row (the offset that best aligns it, in grid
+/// steps refined by a parabola) is ±h plus a drift of the features with field; interpolating
+/// the two neighbours' shifts to the row's own field cancels the drift (exactly when it is
+/// linear in field, whatever the field steps), leaving the hysteresis h: the shift of
+/// down-sweep features relative to up-sweep features.
 fn hysteresis_of_rows(
     data: &Array2<f64>,
     dirs: &[SweepDirection],
+    fields: &[f64],
     step: f64,
 ) -> Option<Hysteresis> {
-    if !dirs.windows(2).any(|w| {
-        matches!(
-            (w[0], w[1]),
-            (SweepDirection::Up, SweepDirection::Down) | (SweepDirection::Down, SweepDirection::Up)
-        )
-    }) {
-        return None;
-    }
-    let rows: Vec<(SweepDirection, &[f64])> = dirs
-        .iter()
-        .zip(data.rows())
-        .filter_map(|(d, r)| r.to_slice().map(|s| (*d, s)))
-        .collect();
+    use SweepDirection::{Down, Up};
     const K: isize = 12;
-    let shift_of = |up: &[f64], down: &[f64]| -> Option<f64> {
-        let n = up.len() as isize;
+    // Compare rows in log scale so every feature counts, not only the largest peak (a channel
+    // with signed values, such as R_xy, is compared as it is).
+    let positive = data.iter().all(|v| !(*v <= 0.0));
+    let logged: Vec<Vec<f64>> = data
+        .rows()
+        .into_iter()
+        .map(|r| {
+            r.iter()
+                .map(|&v| if positive { v.ln() } else { v })
+                .collect()
+        })
+        .collect();
+    let rows: Vec<Option<&[f64]>> = logged.iter().map(|r| Some(r.as_slice())).collect();
+    // Offset s (SI) such that `other(x) ≈ base(x − s)`.
+    let shift_of = |base: &[f64], other: &[f64]| -> Option<f64> {
+        let n = base.len() as isize;
         let sse = |k: isize| -> Option<f64> {
             let (mut s, mut c) = (0.0, 0usize);
             for i in K..n - K {
-                let (d, u) = (down[i as usize], up[(i - k) as usize]);
-                if d.is_finite() && u.is_finite() {
-                    s += (d - u) * (d - u);
+                let (o, b) = (other[i as usize], base[(i - k) as usize]);
+                if o.is_finite() && b.is_finite() {
+                    s += (o - b) * (o - b);
                     c += 1;
                 }
             }
@@ -328,40 +367,34 @@ fn hysteresis_of_rows(
         };
         Some(((bi as isize - K) as f64 + frac) * step)
     };
-    let (mut after, mut before) = (Vec::new(), Vec::new());
-    for w in rows.windows(2) {
-        match (w[0].0, w[1].0) {
-            (SweepDirection::Up, SweepDirection::Down) => {
-                if let Some(s) = shift_of(w[0].1, w[1].1) {
-                    after.push(s);
-                }
-            }
-            (SweepDirection::Down, SweepDirection::Up) => {
-                if let Some(s) = shift_of(w[1].1, w[0].1) {
-                    before.push(s);
-                }
-            }
-            _ => {}
+    let mut est = Vec::new();
+    for k in 1..dirs.len().saturating_sub(1) {
+        let sign = match (dirs[k - 1], dirs[k], dirs[k + 1]) {
+            (Down, Up, Down) => 1.0,
+            (Up, Down, Up) => -1.0,
+            _ => continue,
+        };
+        let (Some(base), Some(a), Some(b)) = (rows[k], rows[k - 1], rows[k + 1]) else {
+            continue;
+        };
+        let (Some(sa), Some(sb)) = (shift_of(base, a), shift_of(base, b)) else {
+            continue;
+        };
+        let (d1, d2) = (fields[k] - fields[k - 1], fields[k + 1] - fields[k]);
+        if !(d1 > 0.0 && d2 > 0.0) {
+            continue;
         }
+        est.push(sign * (sa * d2 + sb * d1) / (d1 + d2));
     }
-    let pairs = after.len() + before.len();
-    if pairs == 0 {
+    if est.is_empty() {
         return None;
     }
-    let shift = match (after.is_empty(), before.is_empty()) {
-        (false, false) => 0.5 * (median(&mut after.clone()) + median(&mut before.clone())),
-        (false, true) => median(&mut after.clone()),
-        _ => median(&mut before.clone()),
-    };
-    let mut all: Vec<f64> = after
-        .iter()
-        .chain(&before)
-        .map(|s| (s - shift).abs())
-        .collect();
+    let shift = median(&mut est.clone());
+    let mut dev: Vec<f64> = est.iter().map(|s| (s - shift).abs()).collect();
     Some(Hysteresis {
         shift,
-        spread: 1.4826 * median(&mut all),
-        pairs,
+        spread: 1.4826 * median(&mut dev),
+        pairs: est.len(),
     })
 }
 
@@ -447,13 +480,12 @@ pub fn grid_sweeps(
         Some(_) => None,
         None => common_exact_axis(&cleaned),
     };
+    // Each sweep's mean spacing (its span over its intervals) is unbiased by point jitter,
+    // unlike the median of neighbour distances.
     let mut all_steps: Vec<f64> = cleaned
         .iter()
-        .filter(|c| c.x.len() > 1)
-        .map(|c| {
-            let mut d: Vec<f64> = c.x.windows(2).map(|w| w[1] - w[0]).collect();
-            median(&mut d)
-        })
+        .filter(|c| c.x.len() > 2)
+        .map(|c| (c.x[c.x.len() - 1] - c.x[0]) / (c.x.len() - 1) as f64)
         .collect();
     let step = match opts.step {
         Some(s) if s > 0.0 && s.is_finite() => s,
@@ -479,6 +511,17 @@ pub fn grid_sweeps(
                 .iter()
                 .map(|c| c.x[c.x.len() - 1])
                 .fold(f64::NEG_INFINITY, f64::max);
+            // Anchor the grid where the sweeps typically start, so grid points sit on the
+            // nominal measurement points; extend it to cover every sweep.
+            let mut starts: Vec<f64> = cleaned.iter().map(|c| c.x[0]).collect();
+            let anchor = median(&mut starts);
+            let k_lo = ((lo - anchor) / step).ceil();
+            let k_lo = if anchor + (k_lo - 1.0) * step >= lo - 1e-9 * step {
+                k_lo - 1.0
+            } else {
+                k_lo
+            };
+            let lo = anchor + k_lo * step;
             let n = ((hi - lo) / step + 1e-9).floor() as usize + 1;
             if n > 50_000_000 {
                 return Err(Error::invalid(
@@ -584,7 +627,7 @@ pub fn grid_sweeps(
     drop(cleaned);
     let hysteresis = data
         .first()
-        .and_then(|d| hysteresis_of_rows(d, &row_dirs, step));
+        .and_then(|d| hysteresis_of_rows(d, &row_dirs, &row_values, step));
     let swept_axis = Axis::new(swept_name.clone(), swept_quantity, grid)
         .map_err(|e| bad_axis(&swept_name, e.to_string()))?;
     let stepped_axis = Axis::new(stepped_name.clone(), stepped_quantity, row_values)
@@ -616,6 +659,7 @@ pub fn grid_sweeps(
         duplicates_averaged: dup_total,
         rows_merged,
         glitches,
+        glitches_removed: opts.remove_glitches,
         short_sweeps,
         nan_cells: map.nan_counts(),
         step,
@@ -822,7 +866,7 @@ fn finish_regular(
         .collect();
     let hysteresis = data
         .first()
-        .and_then(|d| hysteresis_of_rows(d, &row_dirs, step));
+        .and_then(|d| hysteresis_of_rows(d, &row_dirs, &row_values, step));
     let swept_axis = Axis::new(parts.swept_name, parts.swept_quantity, axis)
         .expect("regular_axis checked that the axis strictly increases");
     let stepped_axis = Axis::new(parts.stepped_name, parts.stepped_quantity, row_values)
@@ -856,6 +900,7 @@ fn finish_regular(
         duplicates_averaged: 0,
         rows_merged: 0,
         glitches,
+        glitches_removed: opts.remove_glitches,
         short_sweeps: spans
             .iter()
             .filter(|&&n| (n as f64) < 0.8 * median_span)
@@ -962,13 +1007,11 @@ mod tests {
     #[test]
     fn ragged_sweeps_grid_without_inventing_data() {
         let (sweeps, fields) = ragged(0.0);
-        let m = grid_sweeps(
-            set(sweeps),
-            true,
-            &GridOptions::default(),
-            DuplicatePolicy::Average,
-        )
-        .unwrap();
+        let opts = GridOptions {
+            remove_glitches: true,
+            ..GridOptions::default()
+        };
+        let m = grid_sweeps(set(sweeps), true, &opts, DuplicatePolicy::Average).unwrap();
         let r = m.meta.gridding.clone().unwrap();
         assert_eq!(r.sweeps, 31);
         assert_eq!(r.rows, 30);

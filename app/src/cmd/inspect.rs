@@ -191,7 +191,11 @@ pub fn text(r: &Report) -> String {
             gr.duplicates_averaged,
             gr.rows_merged,
             gr.glitches,
-            if gr.glitches > 0 { " set to NaN" } else { "" },
+            match (gr.glitches, gr.glitches_removed) {
+                (0, _) => "",
+                (_, true) => " set to NaN",
+                (_, false) => " kept (--drop-glitches sets them to NaN)",
+            },
             gr.short_sweeps
         ));
         match &gr.hysteresis {

@@ -22,9 +22,10 @@ pub struct LoadArgs {
     /// of that axis (V or T); default: the median step of the data.
     #[arg(long, value_name = "STEP")]
     pub grid_step: Option<f64>,
-    /// Keep single-point glitches instead of setting them to NaN (they are reported either way).
+    /// Set single-point glitches to NaN (by default they are kept and only counted: a real
+    /// feature one point wide looks the same).
     #[arg(long)]
-    pub keep_glitches: bool,
+    pub drop_glitches: bool,
     /// What to do with repeated points: `average` (default) or `error`.
     #[arg(long, value_name = "POLICY", default_value = "average")]
     pub duplicates: String,
@@ -75,7 +76,7 @@ impl LoadArgs {
             duplicates,
             grid: GridOptions {
                 step: self.grid_step,
-                remove_glitches: !self.keep_glitches,
+                remove_glitches: self.drop_glitches,
                 step_tolerance: None,
             },
             matrix: MatrixOptions {
