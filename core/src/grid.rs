@@ -9,7 +9,7 @@
 use serde::{Deserialize, Serialize};
 
 /// Choices for gridding.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct GridOptions {
     /// Spacing of the common swept axis in SI units; default: the median step of the data.
     pub step: Option<f64>,
@@ -22,15 +22,6 @@ pub struct GridOptions {
     pub step_tolerance: Option<f64>,
 }
 
-impl Default for GridOptions {
-    fn default() -> Self {
-        GridOptions {
-            step: None,
-            remove_glitches: false,
-            step_tolerance: None,
-        }
-    }
-}
 
 /// Hysteresis between up and down sweeps, estimated from the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
