@@ -72,7 +72,7 @@ impl SampleGeometry {
 /// NaN if either input is NaN or both are zero.
 fn invert_isotropic(a: f64, b: f64) -> (f64, f64) {
     let det = a * a + b * b;
-    if !(det > 0.0) || !det.is_finite() {
+    if det.is_nan() || det <= 0.0 || det.is_infinite() {
         // det is NaN (missing input), zero (no inverse) or overflowed.
         if det.is_infinite() && a.is_finite() && b.is_finite() {
             // Overflow of the squares: rescale.
@@ -193,10 +193,18 @@ mod tests {
         let y = Axis::uniform("b", Quantity::Field, 0.0, 1.0, 2).unwrap();
         let mut m = Map::new(x, y);
         assert!(add_conductivity(&mut m, &SampleGeometry::Squares(1.0)).is_err());
-        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, Array2::from_elem((2, 3), 1000.0)))
-            .unwrap();
-        m.add_channel(Channel::new("rxy", ChannelKind::Rxy, Array2::from_elem((2, 3), 5000.0)))
-            .unwrap();
+        m.add_channel(Channel::new(
+            "rxx",
+            ChannelKind::Rxx,
+            Array2::from_elem((2, 3), 1000.0),
+        ))
+        .unwrap();
+        m.add_channel(Channel::new(
+            "rxy",
+            ChannelKind::Rxy,
+            Array2::from_elem((2, 3), 5000.0),
+        ))
+        .unwrap();
         add_conductivity(&mut m, &SampleGeometry::Squares(2.0)).unwrap();
         let sxx = m.channel("sxx").unwrap();
         assert_eq!(sxx.unit, "S");

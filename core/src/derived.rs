@@ -162,7 +162,8 @@ fn derivative(
 
 /// σ_xx or σ_xy of a map: from R_xx and R_xy with the geometry, or an existing σ channel.
 fn sigma(map: &Map, kind: ChannelKind, opts: &DeriveOptions) -> Result<Array2<f64>> {
-    let has_r = map.channel_of(ChannelKind::Rxx).is_some() && map.channel_of(ChannelKind::Rxy).is_some();
+    let has_r =
+        map.channel_of(ChannelKind::Rxx).is_some() && map.channel_of(ChannelKind::Rxy).is_some();
     if has_r {
         let geometry = opts.geometry.ok_or_else(|| {
             Error::MapRequirement(
@@ -171,7 +172,11 @@ fn sigma(map: &Map, kind: ChannelKind, opts: &DeriveOptions) -> Result<Array2<f6
             )
         })?;
         let (sxx, sxy) = conductivity_channels(map, &geometry)?;
-        return Ok(if kind == ChannelKind::SigmaXx { sxx.data } else { sxy.data });
+        return Ok(if kind == ChannelKind::SigmaXx {
+            sxx.data
+        } else {
+            sxy.data
+        });
     }
     if let Some(ch) = map.channel_of(kind) {
         return Ok(ch.data.clone());
@@ -255,8 +260,14 @@ mod tests {
 
     #[test]
     fn short_names_are_stable_and_unique() {
-        let names: Vec<_> = DerivedQuantity::ALL.iter().map(|q| q.short_name()).collect();
-        assert_eq!(names, ["drxx_dvg", "drxx_dn", "dsxy_dn", "d2rxx_dn2", "sxx", "sxy"]);
+        let names: Vec<_> = DerivedQuantity::ALL
+            .iter()
+            .map(|q| q.short_name())
+            .collect();
+        assert_eq!(
+            names,
+            ["drxx_dvg", "drxx_dn", "dsxy_dn", "d2rxx_dn2", "sxx", "sxy"]
+        );
         for q in DerivedQuantity::ALL {
             assert_eq!(DerivedQuantity::from_short_name(q.short_name()), Some(q));
         }
@@ -274,7 +285,10 @@ mod tests {
         let e = derive(&m, DerivedQuantity::DrxxDn, &opts).unwrap_err();
         assert!(e.to_string().contains("gate model"), "{e}");
         let alpha = 2.0e15;
-        opts.gate = Some(SingleGate { alpha_m2_per_v: alpha, v_cnp: 0.0 });
+        opts.gate = Some(SingleGate {
+            alpha_m2_per_v: alpha,
+            v_cnp: 0.0,
+        });
         let dn = derive(&m, DerivedQuantity::DrxxDn, &opts).unwrap();
         assert!((dn.data[[0, 30]] - 6.0 / alpha).abs() < 1e-9 / alpha);
         let d2 = derive(&m, DerivedQuantity::D2rxxDn2, &opts).unwrap();
@@ -289,13 +303,19 @@ mod tests {
     fn sigma_needs_geometry() {
         let m = map();
         let mut opts = DeriveOptions::default();
-        assert!(derive(&m, DerivedQuantity::Sxy, &opts).unwrap_err().to_string().contains("geometry"));
+        assert!(derive(&m, DerivedQuantity::Sxy, &opts)
+            .unwrap_err()
+            .to_string()
+            .contains("geometry"));
         opts.geometry = Some(SampleGeometry::Squares(1.0));
         let s = derive(&m, DerivedQuantity::Sxx, &opts).unwrap();
         assert_eq!((s.kind, s.unit.as_str()), (ChannelKind::SigmaXx, "S"));
         // Column 30: ρ_xx = 103 Ω, ρ_xy = 10 Ω.
         assert!((s.data[[0, 30]] - 103.0 / (103.0f64.powi(2) + 100.0)).abs() < 1e-15);
-        opts.gate = Some(SingleGate { alpha_m2_per_v: 1e15, v_cnp: 0.0 });
+        opts.gate = Some(SingleGate {
+            alpha_m2_per_v: 1e15,
+            v_cnp: 0.0,
+        });
         let ds = derive(&m, DerivedQuantity::DsxyDn, &opts).unwrap();
         assert!(ds.data.iter().all(|v| v.is_finite()));
     }

@@ -61,10 +61,7 @@ impl Dielectric {
         if !(self.thickness_m > 0.0 && self.thickness_m.is_finite()) {
             return Err(Error::invalid(
                 "dielectric thickness",
-                format!(
-                    "must be a positive length in m, got {}",
-                    self.thickness_m
-                ),
+                format!("must be a positive length in m, got {}", self.thickness_m),
             ));
         }
         if !(self.epsilon_r > 0.0 && self.epsilon_r.is_finite()) {
@@ -237,7 +234,11 @@ mod tests {
             thickness_m: 0.0,
             epsilon_r: 3.9,
         };
-        assert!(d.capacitance().unwrap_err().to_string().contains("thickness"));
+        assert!(d
+            .capacitance()
+            .unwrap_err()
+            .to_string()
+            .contains("thickness"));
         let d = Dielectric {
             thickness_m: 1e-9,
             epsilon_r: -1.0,

@@ -114,37 +114,38 @@ pub fn fit_weights(xs: &[f64], x0: f64, order: usize, deriv: usize) -> Option<Ve
         h = 1.0;
     }
     let t: Vec<f64> = xs.iter().map(|&x| (x - x0) / h).collect();
-    // q[j] holds column j of Q; r[k][j] the upper-triangular R.
+    // q[j] holds column j of Q; r_cols[j][k] = R[k][j], the upper-triangular R by columns.
     let mut q: Vec<Vec<f64>> = Vec::with_capacity(p);
-    let mut r = vec![vec![0.0; p]; p];
+    let mut r_cols: Vec<Vec<f64>> = Vec::with_capacity(p);
     for j in 0..p {
         let mut v: Vec<f64> = t.iter().map(|&ti| ti.powi(j as i32)).collect();
         let norm0 = v.iter().map(|a| a * a).sum::<f64>().sqrt();
+        let mut rc = vec![0.0; p];
         for _pass in 0..2 {
-            for (k, qk) in q.iter().enumerate() {
+            for (rk, qk) in rc.iter_mut().zip(&q) {
                 let dot: f64 = qk.iter().zip(&v).map(|(a, b)| a * b).sum();
-                r[k][j] += dot;
+                *rk += dot;
                 for (vi, qi) in v.iter_mut().zip(qk) {
                     *vi -= dot * qi;
                 }
             }
         }
         let norm = v.iter().map(|a| a * a).sum::<f64>().sqrt();
-        if !(norm > 1e-10 * norm0.max(f64::MIN_POSITIVE)) {
+        // Rank deficient (too few distinct points) or non-finite.
+        if norm.is_nan() || norm <= 1e-10 * norm0.max(f64::MIN_POSITIVE) {
             return None;
         }
-        r[j][j] = norm;
+        rc[j] = norm;
         v.iter_mut().for_each(|a| *a /= norm);
         q.push(v);
+        r_cols.push(rc);
     }
-    // Solve Rᵀ z = e_deriv by forward substitution.
-    let mut z = vec![0.0; p];
-    for i in 0..p {
-        let mut s = if i == deriv { 1.0 } else { 0.0 };
-        for k in 0..i {
-            s -= r[k][i] * z[k];
-        }
-        z[i] = s / r[i][i];
+    // Solve Rᵀ z = e_deriv by forward substitution: row i of Rᵀ is column i of R.
+    let mut z: Vec<f64> = Vec::with_capacity(p);
+    for (i, rc) in r_cols.iter().enumerate() {
+        let rhs = if i == deriv { 1.0 } else { 0.0 };
+        let s: f64 = rc.iter().zip(&z).map(|(a, b)| a * b).sum();
+        z.push((rhs - s) / rc[i]);
     }
     let factorial: f64 = (1..=deriv).map(|k| k as f64).product();
     let scale = factorial / h.powi(deriv as i32);
@@ -165,9 +166,8 @@ pub fn coefficients(spec: SavgolSpec) -> Result<Vec<f64>> {
     spec.validate()?;
     let m = spec.half_width() as f64;
     let xs: Vec<f64> = (0..spec.window).map(|i| i as f64 - m).collect();
-    fit_weights(&xs, 0.0, spec.order, spec.deriv).ok_or_else(|| {
-        Error::invalid("Savitzky–Golay filter", "the window cannot be fitted")
-    })
+    fit_weights(&xs, 0.0, spec.order, spec.deriv)
+        .ok_or_else(|| Error::invalid("Savitzky–Golay filter", "the window cannot be fitted"))
 }
 
 /// Precomputed weights for every position along one axis.
@@ -194,11 +194,14 @@ impl Stencil {
         }
         if let Some(i) = coords
             .windows(2)
-            .position(|p| !(p[1] > p[0]) || !p[0].is_finite() || !p[1].is_finite())
+            .position(|p| p[1] <= p[0] || !p[0].is_finite() || !p[1].is_finite())
         {
             return Err(Error::invalid(
                 "Savitzky–Golay coordinates",
-                format!("must be finite and strictly increasing (position {})", i + 1),
+                format!(
+                    "must be finite and strictly increasing (position {})",
+                    i + 1
+                ),
             ));
         }
         let m = spec.half_width();
@@ -220,7 +223,8 @@ impl Stencil {
         if uniform {
             let scale = step.powi(spec.deriv as i32);
             let offsets: Vec<f64> = (0..w).map(|i| i as f64).collect();
-            let centre = fit_weights(&offsets, m as f64, spec.order, spec.deriv).ok_or_else(fail)?;
+            let centre =
+                fit_weights(&offsets, m as f64, spec.order, spec.deriv).ok_or_else(fail)?;
             let centre: Vec<f64> = centre.iter().map(|c| c / scale).collect();
             for j in 0..len {
                 let start = j.saturating_sub(m).min(len - w);
@@ -257,7 +261,13 @@ impl Stencil {
 }
 
 /// The NaN-aware fallback at position `j`: fit only the finite points of the window.
-fn refit(values: impl Iterator<Item = f64>, coords: &[f64], start: usize, j: usize, spec: SavgolSpec) -> f64 {
+fn refit(
+    values: impl Iterator<Item = f64>,
+    coords: &[f64],
+    start: usize,
+    j: usize,
+    spec: SavgolSpec,
+) -> f64 {
     let mut xs = Vec::with_capacity(spec.window);
     let mut ys = Vec::with_capacity(spec.window);
     for (k, v) in values.enumerate() {
@@ -327,11 +337,7 @@ pub fn savgol_1d(values: &[f64], coords: &[f64], spec: SavgolSpec) -> Result<Vec
     if values.len() != coords.len() {
         return Err(Error::invalid(
             "Savitzky–Golay input",
-            format!(
-                "{} values but {} coordinates",
-                values.len(),
-                coords.len()
-            ),
+            format!("{} values but {} coordinates", values.len(), coords.len()),
         ));
     }
     let st = Stencil::new(coords, spec)?;
@@ -428,9 +434,9 @@ fn superscript(k: usize) -> String {
 /// named `<name>_sg<deriv>`, of kind `Other` for derivatives (unit `<unit>/<axis unit>^k`) and of
 /// the input kind for smoothing.
 pub fn savgol_channel(map: &Map, name: &str, along: Along, spec: SavgolSpec) -> Result<Channel> {
-    let ch = map.channel(name).ok_or_else(|| {
-        Error::MapRequirement(format!("the map has no channel named `{name}`"))
-    })?;
+    let ch = map
+        .channel(name)
+        .ok_or_else(|| Error::MapRequirement(format!("the map has no channel named `{name}`")))?;
     let axis = match along {
         Along::X => map.x(),
         Along::Y => map.y(),
@@ -458,7 +464,10 @@ mod tests {
 
     #[test]
     fn spec_validation_names_the_problem() {
-        assert!(SavgolSpec::new(4, 2, 0).unwrap_err().to_string().contains("odd"));
+        assert!(SavgolSpec::new(4, 2, 0)
+            .unwrap_err()
+            .to_string()
+            .contains("odd"));
         assert!(SavgolSpec::new(5, 5, 0).is_err());
         assert!(SavgolSpec::new(5, 2, 3).is_err());
         assert!(SavgolSpec::new(5, 2, 2).is_ok());

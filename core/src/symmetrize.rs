@@ -38,7 +38,12 @@ pub fn parity_of(kind: ChannelKind) -> Option<Parity> {
 fn mirror_position(neg: &[f64], b: f64) -> Option<(usize, f64)> {
     let v = -b;
     let n = neg.len();
-    let tol = 1e-9 * if n >= 2 { neg[n - 1] - neg[0] } else { b.abs().max(1e-12) };
+    let tol = 1e-9
+        * if n >= 2 {
+            neg[n - 1] - neg[0]
+        } else {
+            b.abs().max(1e-12)
+        };
     if v < neg[0] - tol || v > neg[n - 1] + tol {
         return None;
     }
@@ -195,11 +200,18 @@ mod tests {
         let rxx = Array2::from_shape_fn((nb, 3), |(r, c)| 100.0 + 10.0 * c as f64 + 7.0 * bv[r]);
         let rxy = Array2::from_shape_fn((nb, 3), |(r, c)| 50.0 * bv[r] + 3.0 + c as f64);
         let other = Array2::zeros((nb, 3));
-        let mut m = if field_on_x { Map::new(b, g) } else { Map::new(g, b) };
+        let mut m = if field_on_x {
+            Map::new(b, g)
+        } else {
+            Map::new(g, b)
+        };
         let fix = |a: Array2<f64>| if field_on_x { a.t().to_owned() } else { a };
-        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, fix(rxx))).unwrap();
-        m.add_channel(Channel::new("rxy", ChannelKind::Rxy, fix(rxy))).unwrap();
-        m.add_channel(Channel::new("t", ChannelKind::Other, fix(other))).unwrap();
+        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, fix(rxx)))
+            .unwrap();
+        m.add_channel(Channel::new("rxy", ChannelKind::Rxy, fix(rxy)))
+            .unwrap();
+        m.add_channel(Channel::new("t", ChannelKind::Other, fix(other)))
+            .unwrap();
         m
     }
 

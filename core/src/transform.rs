@@ -18,7 +18,7 @@ use rayon::prelude::*;
 /// Errors if the map has no `Gate` axis or the gate model is not finite and non-zero.
 pub fn gate_to_density(map: &Map, gate: &SingleGate) -> Result<Map> {
     let alpha = gate.alpha_m2_per_v;
-    if !(alpha.is_finite() && alpha != 0.0) || !gate.v_cnp.is_finite() {
+    if !(alpha.is_finite() && alpha != 0.0 && gate.v_cnp.is_finite()) {
         return Err(Error::invalid(
             "gate model",
             format!(
@@ -268,7 +268,8 @@ mod tests {
         let y = Axis::uniform("b", Quantity::Field, 0.0, 1.0, 2).unwrap();
         let mut m = Map::new(x, y);
         let d = Array2::from_shape_fn((2, 5), |(r, c)| (10 * r + c) as f64);
-        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, d)).unwrap();
+        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, d))
+            .unwrap();
         m
     }
 
@@ -296,14 +297,17 @@ mod tests {
         let mut m = Map::new(vt.clone(), vb.clone());
         let f = |t: f64, b: f64| 3.0 * t - 0.2 * b + 1.0;
         let d = Array2::from_shape_fn((21, 21), |(r, c)| f(vt.values()[c], vb.values()[r]));
-        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, d)).unwrap();
+        m.add_channel(Channel::new("rxx", ChannelKind::Rxx, d))
+            .unwrap();
         let g = DualGate::new(1.0e-3, 1.2e-4).unwrap();
-        let out = gates_to_density_displacement(&m, &g, &DensityDisplacementGrid::default()).unwrap();
+        let out =
+            gates_to_density_displacement(&m, &g, &DensityDisplacementGrid::default()).unwrap();
         let ch = &out.channel("rxx").unwrap().data;
         let (mut inside, mut outside) = (0, 0);
         for ((r, c), v) in ch.indexed_iter() {
             let (t, b) = g.gates_for(out.x().values()[c], out.y().values()[r]);
-            let within = (-1.0 - 1e-9..=1.0 + 1e-9).contains(&t) && (-10.0 - 1e-9..=10.0 + 1e-9).contains(&b);
+            let within = (-1.0 - 1e-9..=1.0 + 1e-9).contains(&t)
+                && (-10.0 - 1e-9..=10.0 + 1e-9).contains(&b);
             if within {
                 inside += 1;
                 assert!((v - f(t, b)).abs() < 1e-9, "{v} vs {}", f(t, b));
@@ -315,7 +319,13 @@ mod tests {
         assert!(inside > 100 && outside > 100, "{inside} {outside}");
         assert_eq!(out.y().quantity, Quantity::Displacement);
         // A two-gate map has no single-gate axis to convert.
-        let corner = gate_to_density(&m, &SingleGate { alpha_m2_per_v: 1.0, v_cnp: 0.0 });
+        let corner = gate_to_density(
+            &m,
+            &SingleGate {
+                alpha_m2_per_v: 1.0,
+                v_cnp: 0.0,
+            },
+        );
         assert!(corner.is_err());
     }
 }

@@ -3,13 +3,11 @@
 //! is the project's table of independently recomputed reference values
 //! (shared/reference/check-values.md), whose section is given.
 
-use fanmark_core::conductivity::{
-    rho_from_sigma, sigma_from_rho, siemens_to_e2h, SampleGeometry,
-};
+use fanmark_core::conductivity::{rho_from_sigma, siemens_to_e2h, sigma_from_rho, SampleGeometry};
 use fanmark_core::constants::{E_OVER_H, VON_KLITZING_R_K};
 use fanmark_core::gate::{
-    effective_lever_arm, graphene_quantum_capacitance, quantum_capacitance_correction,
-    Dielectric, DualGate, SingleGate, GRAPHENE_FERMI_VELOCITY_M_PER_S,
+    effective_lever_arm, graphene_quantum_capacitance, quantum_capacitance_correction, Dielectric,
+    DualGate, SingleGate, GRAPHENE_FERMI_VELOCITY_M_PER_S,
 };
 use fanmark_core::savgol::{coefficients, savgol_1d, SavgolSpec};
 use fanmark_core::units::{cm2_to_m2, m2_to_cm2, v_per_m_to_v_per_nm};
@@ -140,15 +138,32 @@ fn tensor_inversion_rows() {
     // (ρ_xx, ρ_xy) in Ω → (σ_xx, σ_xy) in S and in e²/h.
     let rk = VON_KLITZING_R_K;
     let rows = [
-        (1000.0, 5000.0, 3.846_153_846e-5, -1.923_076_923e-4, 0.992_800, -4.964_001),
+        (
+            1000.0,
+            5000.0,
+            3.846_153_846e-5,
+            -1.923_076_923e-4,
+            0.992_800,
+            -4.964_001,
+        ),
         (0.0, rk / 2.0, 0.0, -7.748_091_730e-5, 0.0, -2.0),
-        (200.0, rk / 6.0, 1.078_262_334e-5, -2.319_414_834e-4, 0.278_330, -5.987_061),
+        (
+            200.0,
+            rk / 6.0,
+            1.078_262_334e-5,
+            -2.319_414_834e-4,
+            0.278_330,
+            -5.987_061,
+        ),
         (rk, rk, 1.937_022_933e-5, -1.937_022_933e-5, 0.5, -0.5),
     ];
     for (rxx, rxy, sxx, sxy, sxx_q, sxy_q) in rows {
         let (a, b) = sigma_from_rho(rxx, rxy);
         let close = |x: f64, y: f64, tol: f64| (x - y).abs() <= tol * y.abs().max(1e-30);
-        assert!(close(a, sxx, 1e-9) || (sxx == 0.0 && a == 0.0), "{a} vs {sxx}");
+        assert!(
+            close(a, sxx, 1e-9) || (sxx == 0.0 && a == 0.0),
+            "{a} vs {sxx}"
+        );
         assert!(close(b, sxy, 1e-9), "{b} vs {sxy}");
         assert!((siemens_to_e2h(a) - sxx_q).abs() < 1e-6);
         assert!((siemens_to_e2h(b) - sxy_q).abs() < 1e-6);
@@ -198,22 +213,52 @@ fn savgol_coefficient_tables() {
     // Smoothing, quadratic = cubic.
     check_row(5, &[2, 3], 0, &[-3., 12., 17., 12., -3.], 35.0);
     check_row(7, &[2, 3], 0, &[-2., 3., 6., 7., 6., 3., -2.], 21.0);
-    check_row(9, &[2, 3], 0, &[-21., 14., 39., 54., 59., 54., 39., 14., -21.], 231.0);
+    check_row(
+        9,
+        &[2, 3],
+        0,
+        &[-21., 14., 39., 54., 59., 54., 39., 14., -21.],
+        231.0,
+    );
     // Smoothing, quartic = quintic.
     check_row(7, &[4, 5], 0, &[5., -30., 75., 131., 75., -30., 5.], 231.0);
-    check_row(9, &[4, 5], 0, &[15., -55., 30., 135., 179., 135., 30., -55., 15.], 429.0);
+    check_row(
+        9,
+        &[4, 5],
+        0,
+        &[15., -55., 30., 135., 179., 135., 30., -55., 15.],
+        429.0,
+    );
     // First derivative, linear = quadratic.
     check_row(5, &[1, 2], 1, &[-2., -1., 0., 1., 2.], 10.0);
     check_row(7, &[1, 2], 1, &[-3., -2., -1., 0., 1., 2., 3.], 28.0);
-    check_row(9, &[1, 2], 1, &[-4., -3., -2., -1., 0., 1., 2., 3., 4.], 60.0);
+    check_row(
+        9,
+        &[1, 2],
+        1,
+        &[-4., -3., -2., -1., 0., 1., 2., 3., 4.],
+        60.0,
+    );
     // First derivative, cubic = quartic.
     check_row(5, &[3, 4], 1, &[1., -8., 0., 8., -1.], 12.0);
     check_row(7, &[3, 4], 1, &[22., -67., -58., 0., 58., 67., -22.], 252.0);
-    check_row(9, &[3, 4], 1, &[86., -142., -193., -126., 0., 126., 193., 142., -86.], 1188.0);
+    check_row(
+        9,
+        &[3, 4],
+        1,
+        &[86., -142., -193., -126., 0., 126., 193., 142., -86.],
+        1188.0,
+    );
     // Second derivative (includes the factor 2), quadratic = cubic.
     check_row(5, &[2, 3], 2, &[2., -1., -2., -1., 2.], 7.0);
     check_row(7, &[2, 3], 2, &[5., 0., -3., -4., -3., 0., 5.], 42.0);
-    check_row(9, &[2, 3], 2, &[28., 7., -8., -17., -20., -17., -8., 7., 28.], 462.0);
+    check_row(
+        9,
+        &[2, 3],
+        2,
+        &[28., 7., -8., -17., -20., -17., -8., 7., 28.],
+        462.0,
+    );
 }
 
 #[test]
@@ -221,7 +266,10 @@ fn savgol_worked_cubic() {
     // check-values §9 (V): y = 0.5x³ − 2x² + x, window 7, order 3: at x = 10 the first
     // derivative is 111 and the second 26. Spacing 0.5 exercises the division by Δx^k.
     let x: Vec<f64> = (0..41).map(|i| i as f64 * 0.5).collect();
-    let y: Vec<f64> = x.iter().map(|&v| 0.5 * v * v * v - 2.0 * v * v + v).collect();
+    let y: Vec<f64> = x
+        .iter()
+        .map(|&v| 0.5 * v * v * v - 2.0 * v * v + v)
+        .collect();
     let j = 20; // x = 10
     let d1 = savgol_1d(&y, &x, SavgolSpec::new(7, 3, 1).unwrap()).unwrap();
     let d2 = savgol_1d(&y, &x, SavgolSpec::new(7, 3, 2).unwrap()).unwrap();
