@@ -70,20 +70,22 @@ impl SampleGeometry {
 
 /// Invert the isotropic 2×2 tensor [[a, b], [−b, a]]: returns (a/(a²+b²), −b/(a²+b²)).
 /// NaN if either input is NaN or both are zero.
+#[inline]
 fn invert_isotropic(a: f64, b: f64) -> (f64, f64) {
     let det = a * a + b * b;
-    if det.is_nan() || det <= 0.0 || det.is_infinite() {
-        // det is NaN (missing input), zero (no inverse) or overflowed.
-        if det.is_infinite() && a.is_finite() && b.is_finite() {
-            // Overflow of the squares: rescale.
-            let s = a.abs().max(b.abs());
-            let (a1, b1) = (a / s, b / s);
-            let d1 = a1 * a1 + b1 * b1;
-            return (a1 / d1 / s, -b1 / d1 / s);
-        }
-        return (f64::NAN, f64::NAN);
+    if det.is_normal() {
+        let inv = 1.0 / det;
+        return (a * inv, -b * inv);
     }
-    (a / det, -b / det)
+    // det is NaN (missing input), zero (no inverse), subnormal or overflowed.
+    if a.is_finite() && b.is_finite() && (a != 0.0 || b != 0.0) {
+        // Rescale so the squares neither overflow nor underflow.
+        let s = a.abs().max(b.abs());
+        let (a1, b1) = (a / s, b / s);
+        let d1 = a1 * a1 + b1 * b1;
+        return (a1 / d1 / s, -b1 / d1 / s);
+    }
+    (f64::NAN, f64::NAN)
 }
 
 /// (σ_xx, σ_xy) in S from (ρ_xx, ρ_xy) in Ω; σ_xy = −ρ_xy/(ρ_xx²+ρ_xy²) (see module docs).
@@ -112,29 +114,52 @@ pub fn sigma_arrays(
     r_xy: &Array2<f64>,
     geometry: &SampleGeometry,
 ) -> Result<(Array2<f64>, Array2<f64>)> {
-    if r_xx.dim() != r_xy.dim() {
+    let mut sxx = Array2::<f64>::zeros(r_xx.dim());
+    let mut sxy = Array2::<f64>::zeros(r_xx.dim());
+    sigma_arrays_into(r_xx, r_xy, geometry, &mut sxx, &mut sxy)?;
+    Ok((sxx, sxy))
+}
+
+/// As [`sigma_arrays`], writing σ_xx and σ_xy (S) into existing arrays of the same shape (lets
+/// a caller that recomputes often, such as the viewer, reuse its buffers).
+pub fn sigma_arrays_into(
+    r_xx: &Array2<f64>,
+    r_xy: &Array2<f64>,
+    geometry: &SampleGeometry,
+    sxx: &mut Array2<f64>,
+    sxy: &mut Array2<f64>,
+) -> Result<()> {
+    let dim = r_xx.dim();
+    if r_xy.dim() != dim || sxx.dim() != dim || sxy.dim() != dim {
         return Err(Error::invalid(
             "conductivity input",
             format!(
-                "R_xx has shape {:?} but R_xy has {:?}",
-                r_xx.dim(),
-                r_xy.dim()
+                "shapes differ: R_xx {:?}, R_xy {:?}, σ_xx {:?}, σ_xy {:?}",
+                dim,
+                r_xy.dim(),
+                sxx.dim(),
+                sxy.dim()
             ),
         ));
     }
     let inv_sq = 1.0 / geometry.squares()?;
-    let mut sxx = Array2::<f64>::zeros(r_xx.dim());
-    let mut sxy = Array2::<f64>::zeros(r_xx.dim());
-    Zip::from(&mut sxx)
-        .and(&mut sxy)
-        .and(r_xx)
-        .and(r_xy)
-        .par_for_each(|a, b, &rxx, &rxy| {
-            let (s1, s2) = invert_isotropic(rxx * inv_sq, rxy);
-            *a = s1;
-            *b = s2;
+    // Parallel over rows; a plain loop within each row.
+    Zip::from(sxx.rows_mut())
+        .and(sxy.rows_mut())
+        .and(r_xx.rows())
+        .and(r_xy.rows())
+        .par_for_each(|sxx_row, sxy_row, rxx_row, rxy_row| {
+            Zip::from(sxx_row)
+                .and(sxy_row)
+                .and(rxx_row)
+                .and(rxy_row)
+                .for_each(|a, b, &rxx, &rxy| {
+                    let (s1, s2) = invert_isotropic(rxx * inv_sq, rxy);
+                    *a = s1;
+                    *b = s2;
+                });
         });
-    Ok((sxx, sxy))
+    Ok(())
 }
 
 /// The σ_xx and σ_xy channels (S) of a map with R_xx and R_xy channels, named `sxx` and `sxy`.
@@ -185,6 +210,9 @@ mod tests {
         // Large but finite values do not overflow to zero.
         let (a, _) = sigma_from_rho(1e200, 0.0);
         assert!((a * 1e200 - 1.0).abs() < 1e-12);
+        // Tiny values whose squares underflow still invert.
+        let (_, b) = sigma_from_rho(0.0, 1e-170);
+        assert!((b * 1e-170 + 1.0).abs() < 1e-12);
     }
 
     #[test]

@@ -354,7 +354,27 @@ pub fn savgol_2d(
     along: Along,
     spec: SavgolSpec,
 ) -> Result<Array2<f64>> {
+    let mut out = Array2::<f64>::zeros(data.dim());
+    savgol_2d_into(data, coords, along, spec, &mut out)?;
+    Ok(out)
+}
+
+/// As [`savgol_2d`], writing into an existing array of the same shape as `data` (lets a caller
+/// that recomputes often, such as the viewer, reuse its buffer).
+pub fn savgol_2d_into(
+    data: ArrayView2<f64>,
+    coords: &[f64],
+    along: Along,
+    spec: SavgolSpec,
+    out: &mut Array2<f64>,
+) -> Result<()> {
     let (rows, cols) = data.dim();
+    if out.dim() != (rows, cols) {
+        return Err(Error::invalid(
+            "Savitzky–Golay output",
+            format!("has shape {:?}, the input {:?}", out.dim(), (rows, cols)),
+        ));
+    }
     let lane_len = match along {
         Along::X => cols,
         Along::Y => rows,
@@ -369,7 +389,6 @@ pub fn savgol_2d(
         ));
     }
     let st = Stencil::new(coords, spec)?;
-    let mut out = Array2::<f64>::zeros((rows, cols));
     match along {
         Along::X => {
             Zip::from(out.rows_mut())
@@ -400,6 +419,7 @@ pub fn savgol_2d(
                 .enumerate()
                 .for_each(|(j, mut o)| {
                     let s = st.starts[j];
+                    o.fill(0.0);
                     for (k, &wk) in st.weights_at(j).iter().enumerate() {
                         o.scaled_add(wk, &data.row(s + k));
                     }
@@ -415,7 +435,7 @@ pub fn savgol_2d(
                 });
         }
     }
-    Ok(out)
+    Ok(())
 }
 
 /// Superscript for a small power, used in derivative units.
