@@ -26,10 +26,10 @@ pub enum Family {
     BrokenSymmetry,
     /// Fractional states on composite-fermion sequences.
     CompositeFermion,
-    /// Chern-insulator lines (t, s) of the Wannier diagram, integer or fractional.
-    Wannier,
     /// Landau levels fanning out from a moiré band edge or satellite Dirac point (s ≠ 0).
     Satellite,
+    /// Chern-insulator lines (t, s) of the Wannier diagram, integer or fractional.
+    Wannier,
     /// Fields where the flux per moiré cell is a simple fraction p/q.
     BrownZak,
 }
