@@ -368,7 +368,9 @@ pub fn generate(spec: &FamilySpec, moire: Option<&Moire>) -> Result<Vec<Line>> {
 
     if let Some(w) = spec.wannier {
         let ts = fractions_in(
-            Rational::ZERO.checked_sub(w.t_max.abs()).map_err(frac_err)?,
+            Rational::ZERO
+                .checked_sub(w.t_max.abs())
+                .map_err(frac_err)?,
             w.t_max.abs(),
             w.t_den_max,
         )?;
@@ -412,7 +414,10 @@ pub fn generate(spec: &FamilySpec, moire: Option<&Moire>) -> Result<Vec<Line>> {
         if p_lim > MAX_LINES as f64 {
             return Err(Error::invalid(
                 "family bounds",
-                format!("Brown–Zak fields up to {} T would exceed {MAX_LINES} lines", bz.b_max_t),
+                format!(
+                    "Brown–Zak fields up to {} T would exceed {MAX_LINES} lines",
+                    bz.b_max_t
+                ),
             ));
         }
         for q in 1..=bz.q_max {
@@ -514,12 +519,8 @@ mod tests {
             ..FamilySpec::integers(LandauSequence::monolayer(), 0)
         };
         let lines = generate(&spec, None).unwrap();
-        assert!(lines
-            .iter()
-            .any(|l| l.ts() == Some((r(2, 3), r(1, 3)))));
-        assert!(!lines
-            .iter()
-            .any(|l| l.ts() == Some((r(2, 3), r(1, 2)))));
+        assert!(lines.iter().any(|l| l.ts() == Some((r(2, 3), r(1, 3)))));
+        assert!(!lines.iter().any(|l| l.ts() == Some((r(2, 3), r(1, 2)))));
         assert!(!lines.iter().any(|l| l.ts() == Some((r(1, 3), r(1, 1)))));
     }
 

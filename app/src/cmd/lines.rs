@@ -490,7 +490,9 @@ mod tests {
 
     #[test]
     fn tbg_without_cell_is_a_clear_error() {
-        let e = moire_of(&args(&["--stack", "tbg"])).unwrap_err().to_string();
+        let e = moire_of(&args(&["--stack", "tbg"]))
+            .unwrap_err()
+            .to_string();
         assert!(e.contains("--twist-deg") && e.contains("--n0-cm2"), "{e}");
         let e = moire_of(&args(&["--stack", "mono", "--twist-deg", "1.1"]))
             .unwrap_err()
@@ -520,10 +522,7 @@ mod tests {
         let lines = generate(&spec, Some(&m)).unwrap();
         let doc = json_document(&a, cell, gate, &lines, Some(m.n0_m2())).unwrap();
         let ls = doc["lines"].as_array().unwrap();
-        let nu2 = ls
-            .iter()
-            .find(|l| l["t"] == "2" && l["s"] == "0")
-            .unwrap();
+        let nu2 = ls.iter().find(|l| l["t"] == "2" && l["s"] == "0").unwrap();
         // ν = 2 at 10 T: n = 2 (e/h) 10 T = 4.835978e11 cm⁻² (e/h = 2.417989242e10 cm⁻²/T, SI 2019).
         let n = nu2["at_b"][0]["n_cm2"].as_f64().unwrap();
         assert!((n / 4.835_978_484e11 - 1.0).abs() < 1e-9, "{n}");
