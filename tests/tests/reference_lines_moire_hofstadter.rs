@@ -507,7 +507,7 @@ fn square_lattice_band_edges() {
     let b6 = square_lattice_bands(r(1, 6)).unwrap();
     let want6 = [
         (-3.095_573_564_8, -3.076_378_002_6),
-        (-1.592_450_434, -1.414_213_562_4),
+        (-1.592_450_434, -std::f64::consts::SQRT_2), // table: −1.414 213 5624 = −√2
         (-0.646_083_822, 0.0),
     ];
     for (b, (lo, hi)) in b6.iter().zip(want6) {
@@ -531,7 +531,9 @@ fn gap_chern_numbers() {
     // check-values §7, "Gap Chern numbers t_r from the Diophantine equation" r = t p + s q,
     // |t| ≤ q/2 (TKNN 1982 and Dana, Avron & Zak 1985, M; rows status V). Our sign is the
     // Středa slope of the line model; check-values notes one Berry-curvature orientation gives −t.
-    let cases: [((i64, i64), &[(i64, i64, i64)]); 5] = [
+    // ((p, q), [(r, t_r, s_r), …])
+    type GapRows<'a> = &'a [(i64, i64, i64)];
+    let cases: [((i64, i64), GapRows); 5] = [
         ((1, 3), &[(1, 1, 0), (2, -1, 1)]),
         ((2, 5), &[(1, -2, 1), (2, 1, 0), (3, -1, 1), (4, 2, 0)]),
         ((1, 4), &[(1, 1, 0), (3, -1, 1)]),

@@ -57,6 +57,21 @@ pub struct Args {
     /// Density of one carrier per moiré cell n₀ = 1/A in cm⁻² (instead of --twist-deg).
     #[arg(long)]
     pub n0_cm2: Option<f64>,
+    /// Device, gate and family bounds.
+    #[command(flatten)]
+    pub opt: Box<Options>,
+    /// Field in T at which to give each line's density (repeatable).
+    #[arg(long = "at-b")]
+    pub at_b: Vec<f64>,
+    /// Print JSON instead of a table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+/// Device, gate and family-bound options of `fanmark lines`.
+#[derive(clap::Args, Debug)]
+#[command(allow_negative_numbers = true)]
+pub struct Options {
     /// Graphene lattice constant in nm.
     #[arg(long, default_value_t = 0.246)]
     pub lattice_nm: f64,
@@ -112,12 +127,6 @@ pub struct Args {
     /// Largest field of Brown–Zak lines in T.
     #[arg(long, default_value_t = 30.0)]
     pub b_max_t: f64,
-    /// Field in T at which to give each line's density (repeatable).
-    #[arg(long = "at-b")]
-    pub at_b: Vec<f64>,
-    /// Print JSON instead of a table.
-    #[arg(long)]
-    pub json: bool,
 }
 
 fn parse_rational(what: &str, text: &str) -> Result<Rational> {
@@ -127,9 +136,12 @@ fn parse_rational(what: &str, text: &str) -> Result<Rational> {
 
 /// The moiré cell described by the options, if the stack has one.
 fn moire_of(a: &Args) -> Result<Option<(Moire, Option<f64>)>> {
-    let lattice = a.lattice_nm * 1e-9;
+    let lattice = a.opt.lattice_nm * 1e-9;
     if !(lattice.is_finite() && lattice > 0.0) {
-        bail!("--lattice-nm {}: expected a positive length", a.lattice_nm);
+        bail!(
+            "--lattice-nm {}: expected a positive length",
+            a.opt.lattice_nm
+        );
     }
     let moire_stack = matches!(a.stack, Stack::Tbg | Stack::Hbn);
     if !moire_stack {
@@ -154,7 +166,7 @@ fn moire_of(a: &Args) -> Result<Option<(Moire, Option<f64>)>> {
     };
     let m = match a.stack {
         Stack::Tbg => Moire::twisted_bilayer(twist, lattice),
-        _ => Moire::graphene_hbn(twist, lattice, a.mismatch_percent / 100.0),
+        _ => Moire::graphene_hbn(twist, lattice, a.opt.mismatch_percent / 100.0),
     }
     .context("--twist-deg")?;
     Ok(Some((m, Some(twist))))
@@ -165,13 +177,13 @@ fn spec_of(a: &Args, has_moire: bool) -> Result<FamilySpec> {
         Stack::Mono | Stack::Hbn => LandauSequence::monolayer(),
         Stack::Bilayer | Stack::Tbg => LandauSequence::bilayer(),
     };
-    if let Some(g) = a.degeneracy {
+    if let Some(g) = a.opt.degeneracy {
         landau = LandauSequence::general(g, landau.offset).context("--degeneracy")?;
     }
-    if let Some(o) = &a.offset {
+    if let Some(o) = &a.opt.offset {
         landau.offset = parse_rational("--offset", o)?;
     }
-    let chosen = a.families.clone().unwrap_or_else(|| {
+    let chosen = a.opt.families.clone().unwrap_or_else(|| {
         if has_moire {
             vec![
                 FamilyChoice::Integer,
@@ -200,9 +212,10 @@ fn spec_of(a: &Args, has_moire: bool) -> Result<FamilySpec> {
             );
         }
     }
-    let s_max = parse_rational("--s-max", &a.s_max)?.abs();
+    let s_max = parse_rational("--s-max", &a.opt.s_max)?.abs();
     let neg = |r: Rational| Rational::ZERO.checked_sub(r).unwrap_or(r);
     let centres = a
+        .opt
         .satellite_centres
         .iter()
         .map(|c| parse_rational("--satellite-centres", c))
@@ -210,42 +223,47 @@ fn spec_of(a: &Args, has_moire: bool) -> Result<FamilySpec> {
     let on = |f: FamilyChoice| chosen.contains(&f);
     Ok(FamilySpec {
         landau,
-        integer: on(FamilyChoice::Integer).then_some(IntegerSpec { nu_max: a.nu_max }),
-        broken_symmetry: on(FamilyChoice::Broken)
-            .then_some(BrokenSymmetrySpec { nu_max: a.nu_max }),
+        integer: on(FamilyChoice::Integer).then_some(IntegerSpec {
+            nu_max: a.opt.nu_max,
+        }),
+        broken_symmetry: on(FamilyChoice::Broken).then_some(BrokenSymmetrySpec {
+            nu_max: a.opt.nu_max,
+        }),
         composite_fermion: on(FamilyChoice::Cf).then_some(CompositeFermionSpec {
-            nu0_min: a.cf_nu0_min,
-            nu0_max: a.cf_nu0_max,
-            p_max: a.cf_p_max,
+            nu0_min: a.opt.cf_nu0_min,
+            nu0_max: a.opt.cf_nu0_max,
+            p_max: a.opt.cf_p_max,
             two_flux: true,
-            four_flux: a.cf_four_flux,
+            four_flux: a.opt.cf_four_flux,
         }),
         satellite: on(FamilyChoice::Satellite).then_some(SatelliteSpec {
             centres,
-            t_max: a.t_max,
+            t_max: a.opt.t_max,
         }),
         wannier: on(FamilyChoice::Wannier).then_some(WannierSpec {
-            t_max: Rational::integer(a.t_max),
+            t_max: Rational::integer(a.opt.t_max),
             s_min: neg(s_max),
             s_max,
-            s_den_max: a.q_max,
-            t_den_max: a.t_den_max,
+            s_den_max: a.opt.q_max,
+            t_den_max: a.opt.t_den_max,
             fractional_t_needs_fractional_s: true,
         }),
         brown_zak: on(FamilyChoice::BrownZak).then_some(BrownZakSpec {
-            q_max: a.q_max,
-            b_max_t: a.b_max_t,
+            q_max: a.opt.q_max,
+            b_max_t: a.opt.b_max_t,
         }),
     })
 }
 
 fn gate_of(a: &Args) -> Result<Option<SingleGate>> {
-    match a.alpha_cm2_per_v {
+    match a.opt.alpha_cm2_per_v {
         None => Ok(None),
-        Some(al) if al.is_finite() && al != 0.0 && a.v_cnp.is_finite() => Ok(Some(SingleGate {
-            alpha_m2_per_v: cm2_to_m2(al),
-            v_cnp: a.v_cnp,
-        })),
+        Some(al) if al.is_finite() && al != 0.0 && a.opt.v_cnp.is_finite() => {
+            Ok(Some(SingleGate {
+                alpha_m2_per_v: cm2_to_m2(al),
+                v_cnp: a.opt.v_cnp,
+            }))
+        }
         Some(al) => bail!("--alpha-cm2-per-v {al}: expected a finite non-zero density per volt"),
     }
 }
