@@ -14,6 +14,9 @@
 //! σ_xy = e (∂n/∂B) = t_r e²/h with n/n₀ = t_r α + s_r, the same t as in the line model
 //! n(B) = t (e/h) B + s n₀. A Berry-curvature calculation with the opposite orientation of the
 //! Brillouin zone (or of B) returns −t_r.
+//!
+//! The honeycomb lattice (graphene's) is treated by a k-scan of its magnetic cell: see
+//! [`honeycomb_allowed_energies`].
 
 use crate::error::{Error, Result};
 use crate::line::Line;
@@ -110,51 +113,117 @@ fn harper_real(p: i64, q: i64, kx_pi_over_q: bool, ky: f64) -> Vec<f64> {
     h
 }
 
-/// Eigenvalues of a real symmetric n×n matrix (row-major) by cyclic Jacobi rotations, sorted.
+/// Eigenvalues of a real symmetric n×n matrix (row-major), sorted: Householder reduction to
+/// tridiagonal form, then the implicit QL iteration with Wilkinson-type shifts.
 pub fn symmetric_eigenvalues(mut a: Vec<f64>, n: usize) -> Vec<f64> {
-    for _sweep in 0..100 {
-        let mut off = 0.0;
-        let mut diag = 0.0;
-        for i in 0..n {
-            diag += a[i * n + i] * a[i * n + i];
-            for j in (i + 1)..n {
-                off += a[i * n + j] * a[i * n + j];
+    if n == 0 {
+        return Vec::new();
+    }
+    let mut d = vec![0.0; n];
+    let mut e = vec![0.0; n];
+    // Householder tridiagonalisation (eigenvalues only).
+    for i in (1..n).rev() {
+        let l = i - 1;
+        let mut h = 0.0;
+        if l > 0 {
+            let scale: f64 = (0..=l).map(|k| a[i * n + k].abs()).sum();
+            if scale == 0.0 {
+                e[i] = a[i * n + l];
+            } else {
+                for k in 0..=l {
+                    a[i * n + k] /= scale;
+                    h += a[i * n + k] * a[i * n + k];
+                }
+                let f = a[i * n + l];
+                let g = if f >= 0.0 { -h.sqrt() } else { h.sqrt() };
+                e[i] = scale * g;
+                h -= f * g;
+                a[i * n + l] = f - g;
+                let mut f = 0.0;
+                for j in 0..=l {
+                    let mut g = 0.0;
+                    for k in 0..=j {
+                        g += a[j * n + k] * a[i * n + k];
+                    }
+                    for k in (j + 1)..=l {
+                        g += a[k * n + j] * a[i * n + k];
+                    }
+                    e[j] = g / h;
+                    f += e[j] * a[i * n + j];
+                }
+                let hh = f / (h + h);
+                for j in 0..=l {
+                    let f = a[i * n + j];
+                    let g = e[j] - hh * f;
+                    e[j] = g;
+                    for k in 0..=j {
+                        a[j * n + k] -= f * e[k] + g * a[i * n + k];
+                    }
+                }
             }
-        }
-        if off <= 1e-30 * diag.max(1e-300) || off == 0.0 {
-            break;
-        }
-        for p in 0..n {
-            for q in (p + 1)..n {
-                let apq = a[p * n + q];
-                if apq == 0.0 {
-                    continue;
-                }
-                let app = a[p * n + p];
-                let aqq = a[q * n + q];
-                let theta = (aqq - app) / (2.0 * apq);
-                let t = theta.signum() / (theta.abs() + (theta * theta + 1.0).sqrt());
-                let t = if theta == 0.0 { 1.0 } else { t };
-                let c = 1.0 / (t * t + 1.0).sqrt();
-                let s = t * c;
-                for k in 0..n {
-                    let akp = a[k * n + p];
-                    let akq = a[k * n + q];
-                    a[k * n + p] = c * akp - s * akq;
-                    a[k * n + q] = s * akp + c * akq;
-                }
-                for k in 0..n {
-                    let apk = a[p * n + k];
-                    let aqk = a[q * n + k];
-                    a[p * n + k] = c * apk - s * aqk;
-                    a[q * n + k] = s * apk + c * aqk;
-                }
-            }
+        } else {
+            e[i] = a[i * n + l];
         }
     }
-    let mut ev: Vec<f64> = (0..n).map(|i| a[i * n + i]).collect();
-    ev.sort_by(f64::total_cmp);
-    ev
+    for i in 0..n {
+        d[i] = a[i * n + i];
+    }
+    // Implicit QL on the tridiagonal (d, e).
+    for i in 1..n {
+        e[i - 1] = e[i];
+    }
+    e[n - 1] = 0.0;
+    for l in 0..n {
+        let mut iter = 0;
+        loop {
+            let mut m = l;
+            while m + 1 < n {
+                let dd = d[m].abs() + d[m + 1].abs();
+                if e[m].abs() <= f64::EPSILON * dd {
+                    break;
+                }
+                m += 1;
+            }
+            if m == l || iter >= 200 {
+                break;
+            }
+            iter += 1;
+            let mut g = (d[l + 1] - d[l]) / (2.0 * e[l]);
+            let mut r = g.hypot(1.0);
+            g = d[m] - d[l] + e[l] / (g + if g >= 0.0 { r.abs() } else { -r.abs() });
+            let (mut s, mut c, mut p) = (1.0, 1.0, 0.0);
+            let mut underflow = false;
+            let mut i = m;
+            while i > l {
+                i -= 1;
+                let f = s * e[i];
+                let b = c * e[i];
+                r = f.hypot(g);
+                e[i + 1] = r;
+                if r == 0.0 {
+                    d[i + 1] -= p;
+                    e[m] = 0.0;
+                    underflow = true;
+                    break;
+                }
+                s = f / r;
+                c = g / r;
+                g = d[i + 1] - p;
+                r = (d[i] - g) * s + 2.0 * c * b;
+                p = s * r;
+                d[i + 1] = g + p;
+                g = c * r - b;
+            }
+            if underflow {
+                continue;
+            }
+            d[l] -= p;
+            e[l] = g;
+            e[m] = 0.0;
+        }
+    }
+    d.sort_by(f64::total_cmp);
+    d
 }
 
 /// Energies (units of t, sorted) of the Harper matrix at k_x ∈ {0, π/q} and any k_y.
@@ -310,6 +379,166 @@ pub fn rank_lines_by_gap(lines: &[Line], q_max: i64) -> Result<Vec<GapRank>> {
     Ok(out)
 }
 
+/// Allowed energy intervals of the honeycomb lattice (nearest-neighbour hopping t = 1, energies
+/// in units of t) at flux `flux` = p/q per hexagon in units of φ₀ = h/e.
+///
+/// Computed on the brick-wall form of the honeycomb lattice (the same graph, so the same
+/// spectrum): a square grid whose vertical bonds exist only where x + y is even, so each
+/// hexagon is a 2×1 brick and each square plaquette carries half the hexagon's flux. Landau
+/// gauge A = (0, B x); the magnetic cell is lcm(2, Q) × 2 sites, Q the denominator of α/2.
+/// Band ranges come from a `k_grid` × `k_grid` scan of the magnetic Brillouin zone, each edge
+/// refined by a compass search; bands that overlap or touch within `MERGE_TOLERANCE` merge into
+/// one allowed interval.
+pub fn honeycomb_allowed_energies(flux: Rational, k_grid: usize) -> Result<Vec<Band>> {
+    if flux.numer() < 0 {
+        return Err(Error::invalid(
+            "flux per hexagon",
+            format!("{flux}: expected a non-negative fraction p/q"),
+        ));
+    }
+    if !(2..=400).contains(&k_grid) {
+        return Err(Error::invalid(
+            "k grid",
+            format!("{k_grid}: expected 2..=400 points per direction"),
+        ));
+    }
+    let half = flux
+        .checked_div(Rational::integer(2))
+        .map_err(|e| Error::invalid("flux", e.to_string()))?;
+    let qq = half.denom();
+    let lx = if qq % 2 == 0 { qq } else { 2 * qq };
+    if lx > 64 {
+        return Err(Error::invalid(
+            "flux per hexagon",
+            format!("{flux}: magnetic cell too large (denominator above 32)"),
+        ));
+    }
+    let cell = BrickCell {
+        lx: lx as usize,
+        phi_sq: half.to_f64(),
+    };
+    let nb = cell.sites();
+    let two_pi = 2.0 * std::f64::consts::PI;
+    let step = two_pi / k_grid as f64;
+    // Coarse scan: for each band, the k of its lowest and highest energy.
+    let mut lo = vec![(f64::INFINITY, 0.0, 0.0); nb];
+    let mut hi = vec![(f64::NEG_INFINITY, 0.0, 0.0); nb];
+    for i in 0..k_grid {
+        for j in 0..k_grid {
+            let (kx, ky) = (i as f64 * step, j as f64 * step);
+            let e = cell.energies(kx, ky);
+            for b in 0..nb {
+                if e[b] < lo[b].0 {
+                    lo[b] = (e[b], kx, ky);
+                }
+                if e[b] > hi[b].0 {
+                    hi[b] = (e[b], kx, ky);
+                }
+            }
+        }
+    }
+    let mut bands = Vec::with_capacity(nb);
+    for b in 0..nb {
+        let e_min = cell.refine(b, lo[b], step, 1.0);
+        let e_max = -cell.refine(b, (-hi[b].0, hi[b].1, hi[b].2), step, -1.0);
+        bands.push(Band { e_min, e_max });
+    }
+    bands.sort_by(|a, b| a.e_min.total_cmp(&b.e_min));
+    let mut merged: Vec<Band> = Vec::new();
+    for b in bands {
+        match merged.last_mut() {
+            Some(m) if b.e_min <= m.e_max + MERGE_TOLERANCE => m.e_max = m.e_max.max(b.e_max),
+            _ => merged.push(b),
+        }
+    }
+    Ok(merged)
+}
+
+/// Bands of the honeycomb spectrum closer than this (units of t) count as one allowed interval.
+pub const MERGE_TOLERANCE: f64 = 1e-6;
+
+/// Magnetic cell of the brick-wall lattice: `lx` × 2 sites, flux `phi_sq` per square plaquette.
+struct BrickCell {
+    lx: usize,
+    phi_sq: f64,
+}
+
+impl BrickCell {
+    const LY: usize = 2;
+
+    fn sites(&self) -> usize {
+        self.lx * Self::LY
+    }
+
+    /// Sorted energies at Bloch phases (kx, ky) per magnetic cell.
+    fn energies(&self, kx: f64, ky: f64) -> Vec<f64> {
+        let n = self.sites();
+        // Hermitian H = A + iB as the real symmetric [[A, −B], [B, A]] (eigenvalues doubled).
+        let m = 2 * n;
+        let mut big = vec![0.0; m * m];
+        let mut add = |a: usize, b: usize, phase: f64| {
+            // Amplitude −e^{i phase} for the hop a → b (H_ba), and its conjugate H_ab.
+            let (re, im) = (-phase.cos(), -phase.sin());
+            for (r, c, re, im) in [(b, a, re, im), (a, b, re, -im)] {
+                big[r * m + c] += re;
+                big[(r + n) * m + c + n] += re;
+                big[r * m + c + n] -= im;
+                big[(r + n) * m + c] += im;
+            }
+        };
+        let idx = |x: usize, y: usize| x * Self::LY + y;
+        let two_pi = 2.0 * std::f64::consts::PI;
+        for x in 0..self.lx {
+            for y in 0..Self::LY {
+                // Horizontal bond to x + 1.
+                let (x2, wrap) = if x + 1 == self.lx {
+                    (0, kx)
+                } else {
+                    (x + 1, 0.0)
+                };
+                add(idx(x, y), idx(x2, y), wrap);
+                // Vertical bond to y + 1 where x + y is even, Peierls phase 2π φ x.
+                if (x + y) % 2 == 0 {
+                    let (y2, wrap) = if y + 1 == Self::LY {
+                        (0, ky)
+                    } else {
+                        (y + 1, 0.0)
+                    };
+                    add(
+                        idx(x, y),
+                        idx(x, y2),
+                        two_pi * self.phi_sq * x as f64 + wrap,
+                    );
+                }
+            }
+        }
+        let ev = symmetric_eigenvalues(big, m);
+        ev.into_iter().step_by(2).collect()
+    }
+
+    /// Local minimum of sign·E_band by compass search from `start` (value, kx, ky).
+    fn refine(&self, band: usize, start: (f64, f64, f64), step0: f64, sign: f64) -> f64 {
+        let (mut best, mut kx, mut ky) = start;
+        let mut step = step0;
+        // Near an extremum the energy error is ~ curvature × step², far below 1e-10 here.
+        while step > 1e-7 {
+            let mut moved = false;
+            for (dx, dy) in [(1.0, 0.0), (-1.0, 0.0), (0.0, 1.0), (0.0, -1.0)] {
+                let (tx, ty) = (kx + dx * step, ky + dy * step);
+                let v = sign * self.energies(tx, ty)[band];
+                if v < best - 1e-15 {
+                    (best, kx, ky) = (v, tx, ty);
+                    moved = true;
+                }
+            }
+            if !moved {
+                step *= 0.5;
+            }
+        }
+        best
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -317,6 +546,20 @@ mod tests {
 
     fn r(p: i64, q: i64) -> Rational {
         Rational::new(p, q).unwrap()
+    }
+
+    #[test]
+    fn eigenvalues_of_small_known_matrices() {
+        // [[2, 1], [1, 2]] → 1, 3; the 4-cycle adjacency matrix → −2, 0, 0, 2 (textbook).
+        let e = symmetric_eigenvalues(vec![2.0, 1.0, 1.0, 2.0], 2);
+        assert!((e[0] - 1.0).abs() < 1e-14 && (e[1] - 3.0).abs() < 1e-14);
+        let c4 = vec![
+            0.0, 1.0, 0.0, 1.0, 1.0, 0.0, 1.0, 0.0, 0.0, 1.0, 0.0, 1.0, 1.0, 0.0, 1.0, 0.0,
+        ];
+        let e = symmetric_eigenvalues(c4, 4);
+        for (a, b) in e.iter().zip([-2.0, 0.0, 0.0, 2.0]) {
+            assert!((a - b).abs() < 1e-13, "{e:?}");
+        }
     }
 
     #[test]
@@ -372,6 +615,15 @@ mod tests {
         assert!(rank[0].widest_gap > rank[1].widest_gap);
         assert_eq!(rank[2].widest_gap, 0.0);
         assert!(rank_lines_by_gap(&lines, 0).is_err());
+    }
+
+    #[test]
+    fn honeycomb_zero_flux_is_minus_three_to_three() {
+        // Graphene tight binding without field: E = ±|1 + e^{ik₁} + e^{ik₂}| ∈ [−3, 3] (textbook).
+        let b = honeycomb_allowed_energies(Rational::ZERO, 12).unwrap();
+        assert_eq!(b.len(), 1);
+        assert!((b[0].e_min + 3.0).abs() < 1e-9 && (b[0].e_max - 3.0).abs() < 1e-9);
+        assert!(honeycomb_allowed_energies(r(1, 100), 8).is_err());
     }
 
     #[test]

@@ -627,3 +627,62 @@ proptest! {
         prop_assert!((n - want).abs() <= 1e-9 * want.abs().max(n0));
     }
 }
+
+#[test]
+fn honeycomb_allowed_energies_match_the_table() {
+    use fanmark_core::hofstadter::honeycomb_allowed_energies;
+    // check-values §7, "Honeycomb lattice", t = 1, flux per hexagon (status V; two gauges there).
+    let s6 = 6f64.sqrt();
+    let b = honeycomb_allowed_energies(r(1, 2), 16).unwrap();
+    assert_eq!(b.len(), 1, "{b:?}");
+    assert!(
+        (b[0].e_min + s6).abs() < 1e-7 && (b[0].e_max - s6).abs() < 1e-7,
+        "{b:?}"
+    );
+
+    // α = 1/3: closed forms 1+2cos(2π/9), √6, √3, 1+2cos(4π/9), 2cos(π/9)−1 and mirror.
+    let c = |x: f64| x.cos();
+    let pi = std::f64::consts::PI;
+    let centre = 2.0 * c(pi / 9.0) - 1.0;
+    // Upper intervals above the centre one, in increasing energy.
+    let upper = [
+        (1.0 + 2.0 * c(4.0 * pi / 9.0), 3f64.sqrt()),
+        (s6, 1.0 + 2.0 * c(2.0 * pi / 9.0)),
+    ];
+    let b = honeycomb_allowed_energies(r(1, 3), 16).unwrap();
+    assert_eq!(b.len(), 5, "{b:?}");
+    assert!((b[2].e_max - centre).abs() < 1e-7 && (b[2].e_min + centre).abs() < 1e-7);
+    for (k, &(lo, hi)) in upper.iter().enumerate() {
+        let up = b[3 + k];
+        let down = b[1 - k];
+        assert!(
+            (up.e_min - lo).abs() < 1e-7 && (up.e_max - hi).abs() < 1e-7,
+            "{up:?}"
+        );
+        assert!(
+            (down.e_max + lo).abs() < 1e-7 && (down.e_min + hi).abs() < 1e-7,
+            "{down:?}"
+        );
+    }
+    // The same intervals as the table's decimals.
+    assert!((b[3].e_min - 1.347_296_355_3).abs() < 1e-7);
+    assert!((b[4].e_max - 2.532_088_886_2).abs() < 1e-7);
+    assert!((b[2].e_max - 0.879_385_241_6).abs() < 1e-7);
+
+    // α = 1/4: grid estimates to ~1e-4 in the table.
+    let b = honeycomb_allowed_energies(r(1, 4), 16).unwrap();
+    let want_upper = [
+        (-0.5175, 0.5175),
+        (1.1638, 1.4142),
+        (1.8078, 1.9318),
+        (2.5779, 2.5946),
+    ];
+    assert_eq!(b.len(), 7, "{b:?}");
+    for (k, &(lo, hi)) in want_upper.iter().enumerate() {
+        let up = b[3 + k];
+        assert!(
+            (up.e_min - lo).abs() < 2e-4 && (up.e_max - hi).abs() < 2e-4,
+            "{up:?}"
+        );
+    }
+}
