@@ -673,7 +673,7 @@ fn honeycomb_allowed_energies_match_the_table() {
     let b = honeycomb_allowed_energies(r(1, 4), 16).unwrap();
     let want_upper = [
         (-0.5175, 0.5175),
-        (1.1638, 1.4142),
+        (1.1638, std::f64::consts::SQRT_2), // table: 1.4142
         (1.8078, 1.9318),
         (2.5779, 2.5946),
     ];
