@@ -145,6 +145,16 @@ impl Line {
         }
     }
 
+    /// The label in plain ASCII (`nu = 2/3`, `(t, s) = (-2, 5/2)`, `phi/phi0 = 1/3`), for
+    /// file formats and terminals without Unicode.
+    pub fn ascii_label(&self) -> String {
+        self.label
+            .replace('\u{2212}', "-")
+            .replace('ν', "nu")
+            .replace("φ₀", "phi0")
+            .replace('φ', "phi")
+    }
+
     /// Adds the memberships of `other` not already listed (the primary family stays).
     pub fn merge_memberships(&mut self, other: &Line) {
         for m in &other.memberships {
@@ -579,6 +589,12 @@ mod tests {
         assert_eq!(a.label, "(t, s) = (\u{2212}2, 5/2)");
         let b = Line::gap(Family::CompositeFermion, "test", r(2, 3), Rational::ZERO);
         assert_eq!(b.label, "ν = 2/3");
+        assert_eq!(a.ascii_label(), "(t, s) = (-2, 5/2)");
+        assert_eq!(b.ascii_label(), "nu = 2/3");
+        assert_eq!(
+            Line::brown_zak("test", r(1, 3)).ascii_label(),
+            "phi/phi0 = 1/3"
+        );
         let json = serde_json::to_string(&a).unwrap();
         assert!(json.contains("\"t\":\"-2\""), "{json}");
         assert!(json.contains("\"s\":\"5/2\""), "{json}");

@@ -331,6 +331,7 @@ fn json_document(
             "family": l.family.name(),
             "memberships": l.memberships,
             "label": l.label,
+            "label_ascii": l.ascii_label(),
         });
         match l.shape {
             LineShape::Gap { t, s } => {
