@@ -633,6 +633,40 @@ mod tests {
     }
 
     #[test]
+    fn wannier_frame_clip_of_crossing_lines() {
+        // In the Wannier plane n/n₀ = t φ/φ₀ + s: (1, 0) is the diagonal x = y and (−1, 1) the
+        // anti-diagonal x = 1 − y of the unit square; both cross it corner to corner.
+        let w = Frame::wannier(N0).unwrap();
+        let unit = FrameRect::new(0.0, 1.0, 0.0, 1.0).unwrap();
+        let a = w
+            .clip(&Line::gap(Family::Wannier, "test", r(1, 1), r(0, 1)), &unit)
+            .unwrap();
+        let b = w
+            .clip(
+                &Line::gap(Family::Wannier, "test", r(-1, 1), r(1, 1)),
+                &unit,
+            )
+            .unwrap();
+        let ends = |s: &Segment| {
+            let (p, q) = (s.points[0], s.points[s.points.len() - 1]);
+            [p.x, p.y, q.x, q.y]
+        };
+        for (got, want) in ends(&a[0]).iter().zip([0.0, 0.0, 1.0, 1.0]) {
+            assert!((got - want).abs() < 1e-12, "{a:?}");
+        }
+        for (got, want) in ends(&b[0]).iter().zip([1.0, 0.0, 0.0, 1.0]) {
+            assert!((got - want).abs() < 1e-12, "{b:?}");
+        }
+        // A gate frame needs a usable lever arm.
+        let bad = SingleGate {
+            alpha_m2_per_v: 0.0,
+            v_cnp: 0.0,
+        };
+        assert!(Frame::gate_field(bad, None).is_err());
+        assert!(FrameRect::new(1.0, 0.0, 0.0, 1.0).is_err());
+    }
+
+    #[test]
     fn curved_filling_frame_clip_stays_inside() {
         let f = Frame::filling_field(Some(N0)).unwrap();
         let l = Line::gap(Family::Satellite, "test", r(-2, 1), r(4, 1));
