@@ -1389,4 +1389,168 @@ pub(crate) mod tests {
             "{e}"
         );
     }
+
+    fn write_npz(path: &Path, add: impl FnOnce(&mut ndarray_npy::NpzWriter<std::fs::File>)) {
+        let mut w = ndarray_npy::NpzWriter::new(std::fs::File::create(path).unwrap());
+        add(&mut w);
+        w.finish().unwrap();
+    }
+
+    #[test]
+    fn npz_by_key_names_with_units_orientation_and_dtypes() {
+        let d = scratch();
+        let p = d.join("fan.npz");
+        let vg = ndarray::arr1(&[1.0, 0.0, -1.0]); // decreasing: columns reversed
+        let b = ndarray::arr1(&[0.0, 500.0]); // mT
+                                              // rxx[i][j] = 100 i + j over (b_i, vg_j) as stored.
+        let rxx = Array2::from_shape_fn((2, 3), |(i, j)| 100.0 * i as f64 + j as f64);
+        // rxy in kΩ, stored (x, y) and as float32.
+        let rxy = Array2::from_shape_fn((3, 2), |(j, i)| (10 * i + j) as f32);
+        let count = Array2::from_shape_fn((2, 3), |(i, j)| (i * 3 + j) as i64);
+        let mask = Array2::from_elem((2, 3), true);
+        let odd = Array2::<f64>::zeros((4, 4));
+        write_npz(&p, |w| {
+            w.add_array("vg", &vg).unwrap();
+            w.add_array("b_mT", &b).unwrap();
+            w.add_array("rxx", &rxx).unwrap();
+            w.add_array("rxy_kohm", &rxy).unwrap();
+            w.add_array("counts", &count).unwrap();
+            w.add_array("mask", &mask).unwrap();
+            w.add_array("odd", &odd).unwrap();
+            w.add_array("T_mK", &ndarray::arr0(250.0)).unwrap();
+        });
+        let m = load_npz(&p, &LoadOptions::default(), &NoProgress).unwrap();
+        assert_eq!(m.x().values(), &[-1.0, 0.0, 1.0]);
+        assert_eq!(m.y().values(), &[0.0, 0.5]);
+        let rxx = &m.channel("rxx").unwrap().data;
+        // Map column 0 is V_g = -1, file column 2.
+        assert_eq!(rxx[[1, 0]], 102.0);
+        assert_eq!(rxx[[0, 2]], 0.0);
+        let rxy = &m.channel("rxy").unwrap().data;
+        // File element (j = 2, i = 1) = 12 kΩ sits at map (row 1, column 0).
+        assert_eq!(rxy[[1, 0]], 12_000.0);
+        assert_eq!(rxy[[0, 2]], 0.0);
+        let counts = &m.channel("counts").unwrap().data;
+        assert_eq!(counts[[1, 0]], 5.0);
+        assert!(m.channel("mask").is_none() && m.channel("odd").is_none());
+        assert!(m
+            .meta
+            .notes
+            .iter()
+            .any(|n| n.contains("mask") && n.contains("bool")));
+        assert!(m
+            .meta
+            .notes
+            .iter()
+            .any(|n| n.contains("odd") && n.contains("(4, 4)")));
+        assert_eq!(m.meta.temperature_k, Some(0.25));
+    }
+
+    #[test]
+    fn npz_explicit_mapping_and_generic_xy_keys() {
+        let d = scratch();
+        let p = d.join("m.npz");
+        let data = Array2::from_shape_fn((2, 2), |(i, j)| (i * 2 + j) as f64);
+        write_npz(&p, |w| {
+            w.add_array("V1", &ndarray::arr1(&[0.0, 2.0])).unwrap();
+            w.add_array("B_magnet", &ndarray::arr1(&[1.0, 3.0]))
+                .unwrap();
+            w.add_array("R_4pt", &data).unwrap();
+            w.add_array("R_2pt", &data).unwrap();
+        });
+        let opts = LoadOptions {
+            columns: columns::parse_mapping("gate=V1,field=B_magnet,rxx=R_4pt").unwrap(),
+            ..LoadOptions::default()
+        };
+        let m = load_npz(&p, &opts, &NoProgress).unwrap();
+        assert_eq!(m.channels().len(), 1);
+        assert_eq!(m.channel("rxx").unwrap().data[[1, 0]], 2.0);
+        assert_eq!(m.y().values(), &[1.0, 3.0]);
+        assert!(m.meta.notes.iter().any(|n| n.contains("square")));
+        // Without the mapping the axes are not found; the error lists what is there.
+        let e = load_npz(&p, &LoadOptions::default(), &NoProgress)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("m.npz") && e.contains("V1 (2,)") && e.contains("R_4pt (2, 2)"),
+            "{e}"
+        );
+        let e = load_npz(
+            &p,
+            &LoadOptions {
+                columns: columns::parse_mapping("gate=V9").unwrap(),
+                ..LoadOptions::default()
+            },
+            &NoProgress,
+        )
+        .unwrap_err()
+        .to_string();
+        assert!(e.contains("V9"), "{e}");
+
+        let q = d.join("xy.npz");
+        write_npz(&q, |w| {
+            w.add_array("x", &ndarray::arr1(&[0.0, 10.0, 20.0]))
+                .unwrap();
+            w.add_array("y", &ndarray::arr1(&[1.0, 2.0])).unwrap();
+            w.add_array("sxx", &Array2::<f64>::ones((2, 3))).unwrap();
+        });
+        let opts = LoadOptions {
+            matrix: crate::io::MatrixOptions {
+                x_header: Some("vg_mV".into()),
+                ..Default::default()
+            },
+            ..LoadOptions::default()
+        };
+        let m = load_npz(&q, &opts, &NoProgress).unwrap();
+        assert_eq!(m.x().values(), &[0.0, 0.01, 0.02]);
+        assert_eq!(m.channel("sxx").unwrap().unit, "S");
+    }
+
+    #[test]
+    fn npz_ambiguous_axes_and_bad_axis() {
+        let d = scratch();
+        let p = d.join("two.npz");
+        write_npz(&p, |w| {
+            w.add_array("vg", &ndarray::arr1(&[0.0, 1.0])).unwrap();
+            w.add_array("gate", &ndarray::arr1(&[0.0, 1.0])).unwrap();
+            w.add_array("b", &ndarray::arr1(&[0.0, 1.0])).unwrap();
+            w.add_array("rxx", &Array2::<f64>::ones((2, 2))).unwrap();
+        });
+        let e = load_npz(&p, &LoadOptions::default(), &NoProgress)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("two.npz") && e.contains("`vg`") && e.contains("`gate`"),
+            "{e}"
+        );
+
+        let p = d.join("flat.npz");
+        write_npz(&p, |w| {
+            w.add_array("vg", &ndarray::arr1(&[0.0, 1.0, 2.0])).unwrap();
+            w.add_array("b", &ndarray::arr1(&[1.0, 1.0])).unwrap();
+            w.add_array("rxx", &Array2::<f64>::ones((2, 3))).unwrap();
+        });
+        let e = load_npz(&p, &LoadOptions::default(), &NoProgress)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            e.contains("flat.npz") && e.contains("`b`") && e.contains("constant"),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn npz_compressed_and_garbage_are_refused() {
+        let d = scratch();
+        let p = d.join("junk.npz");
+        std::fs::write(&p, b"this is not a zip archive at all").unwrap();
+        let e = load_npz(&p, &LoadOptions::default(), &NoProgress)
+            .unwrap_err()
+            .to_string();
+        assert!(e.contains("junk.npz") && e.contains("zip"), "{e}");
+        let p = d.join("empty.npz");
+        std::fs::write(&p, b"").unwrap();
+        let e = load_npz(&p, &LoadOptions::default(), &NoProgress).unwrap_err();
+        assert!(matches!(e, Error::EmptyFile { .. }), "{e}");
+    }
 }
