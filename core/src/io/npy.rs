@@ -434,18 +434,15 @@ fn read_fully<R: Read>(
     Ok(Ok(()))
 }
 
-/// Read the body after `header` from `r`, checking first that the source holds exactly the
-/// bytes the header promises (`available` counts from the start of the array). Returns the
-/// values in row-major (C) order. `progress_base` is added to the bytes reported.
-fn read_body<R: Read>(
+/// Check that the source holds exactly the bytes `header` promises (`available` counts from
+/// the start of the array), before anything is allocated. Returns the element type, the
+/// element count and the byte count of the body.
+fn check_body_size(
     path: &Path,
     what: &str,
-    r: &mut R,
     header: &NpyHeader,
     available: u64,
-    progress: &dyn Progress,
-    progress_base: u64,
-) -> Result<Vec<f64>> {
+) -> Result<(Dtype, usize, u64)> {
     let bad = |message: String| Error::BadArrayFile {
         path: path.to_path_buf(),
         message: format!("{what}{message}"),
@@ -473,6 +470,26 @@ fn read_body<R: Read>(
             dtype.name()
         )));
     }
+    Ok((dtype, elements, expected))
+}
+
+/// Read the body after `header` from `r`, checking first that the source holds exactly the
+/// bytes the header promises (`available` counts from the start of the array). Returns the
+/// values in row-major (C) order. `progress_base` is added to the bytes reported.
+fn read_body<R: Read>(
+    path: &Path,
+    what: &str,
+    r: &mut R,
+    header: &NpyHeader,
+    available: u64,
+    progress: &dyn Progress,
+    progress_base: u64,
+) -> Result<Vec<f64>> {
+    let bad = |message: String| Error::BadArrayFile {
+        path: path.to_path_buf(),
+        message: format!("{what}{message}"),
+    };
+    let (dtype, elements, expected) = check_body_size(path, what, header, available)?;
     let mut values = Vec::with_capacity(elements);
     let chunk = (CHUNK_BYTES / dtype.size) * dtype.size;
     let mut buf = vec![0u8; chunk.min(expected as usize)];
@@ -570,6 +587,7 @@ pub fn load_npy(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Res
     let mut r = std::io::BufReader::new(file);
     let header = read_header(path, "", &mut r, size)?;
     header.dtype_or_err(path, "")?;
+    check_body_size(path, "", &header, size)?;
     let (a, b) = match header.shape.as_slice() {
         [a, b] => (*a, *b),
         _ => {
