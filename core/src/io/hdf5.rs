@@ -12,10 +12,11 @@ use super::LoadOptions;
 use crate::error::{Error, Result};
 use crate::map::Map;
 use crate::progress::Progress;
-use hdf5::types::{FloatSize, IntSize, TypeDescriptor};
+use h5::types::{FloatSize, IntSize, TypeDescriptor};
+use hdf5_metno as h5;
 use std::path::Path;
 
-fn h5_error(path: &Path, e: &hdf5::Error) -> Error {
+fn h5_error(path: &Path, e: &h5::Error) -> Error {
     Error::BadArrayFile {
         path: path.to_path_buf(),
         message: format!("HDF5: {e}"),
@@ -23,7 +24,7 @@ fn h5_error(path: &Path, e: &hdf5::Error) -> Error {
 }
 
 /// Why an HDF5 element type is refused, if it is.
-fn refusal(ds: &hdf5::Dataset) -> Option<String> {
+fn refusal(ds: &h5::Dataset) -> Option<String> {
     match ds.dtype().and_then(|t| t.to_descriptor()) {
         Ok(TypeDescriptor::Float(FloatSize::U4 | FloatSize::U8))
         | Ok(TypeDescriptor::Integer(IntSize::U4 | IntSize::U8)) => None,
@@ -37,9 +38,9 @@ fn refusal(ds: &hdf5::Dataset) -> Option<String> {
 /// The datasets of one group, named relative to the file root with `prefix`.
 fn datasets_of(
     path: &Path,
-    group: &hdf5::Group,
+    group: &h5::Group,
     prefix: &str,
-) -> Result<Vec<(ArrayEntry, hdf5::Dataset)>> {
+) -> Result<Vec<(ArrayEntry, h5::Dataset)>> {
     let mut out = Vec::new();
     for ds in group.datasets().map_err(|e| h5_error(path, &e))? {
         let full = ds.name();
@@ -65,7 +66,7 @@ fn datasets_of(
 struct H5Source<'a> {
     path: &'a Path,
     entries: Vec<ArrayEntry>,
-    datasets: Vec<hdf5::Dataset>,
+    datasets: Vec<h5::Dataset>,
     progress: &'a dyn Progress,
     done: u64,
 }
@@ -113,7 +114,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
             path: path.to_path_buf(),
         });
     }
-    let file = hdf5::File::open(path).map_err(|e| Error::BadArrayFile {
+    let file = h5::File::open(path).map_err(|e| Error::BadArrayFile {
         path: path.to_path_buf(),
         message: format!("not a readable HDF5 file: {e}"),
     })?;
@@ -128,7 +129,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
         }
     }
     let by_path = opts.columns.iter().any(|(_, k)| k.contains('/'));
-    let chosen: Vec<(ArrayEntry, hdf5::Dataset)> = if by_path {
+    let chosen: Vec<(ArrayEntry, h5::Dataset)> = if by_path {
         let mut all = root;
         for (_, sets) in groups {
             all.extend(sets);
@@ -199,7 +200,7 @@ mod tests {
     fn root_datasets_with_units_and_orientation() {
         let p = scratch("root.h5");
         {
-            let f = hdf5::File::create(&p).unwrap();
+            let f = h5::File::create(&p).unwrap();
             f.new_dataset_builder()
                 .with_data(&arr1(&[10.0, 0.0, -10.0])) // mV, decreasing
                 .create("vg_mV")
@@ -240,7 +241,7 @@ mod tests {
     fn single_group_mapping_and_errors() {
         let p = scratch("group.h5");
         {
-            let f = hdf5::File::create(&p).unwrap();
+            let f = h5::File::create(&p).unwrap();
             let g = f.create_group("scan").unwrap();
             g.new_dataset_builder()
                 .with_data(&arr1(&[0.0, 1.0]))
