@@ -58,6 +58,20 @@ pub enum Error {
         /// Fields in this row.
         found: usize,
     },
+    /// A matrix row whose length differs from the first data row's.
+    #[error("{path}:{line}: row has {found} cells, but the first data row (line {first_line}) has {expected}; every row of a matrix needs the same length")]
+    RaggedRow {
+        /// File concerned.
+        path: PathBuf,
+        /// 1-based line number of the ragged row.
+        line: usize,
+        /// 1-based line number of the first data row.
+        first_line: usize,
+        /// Cells in the first data row.
+        expected: usize,
+        /// Cells in this row.
+        found: usize,
+    },
     /// More than one delimiter kind in the same file.
     #[error(
         "{path}:{line}: found `{found}` in a file delimited by `{expected}` (mixed delimiters)"
