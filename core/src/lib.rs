@@ -5,11 +5,13 @@
 //! physicists quote (cm⁻², 10¹² cm⁻², V/nm, meV) happen at the edges through [`units`].
 //! The library never prints, never exits and never panics on user data; errors are typed.
 
+pub mod colour;
 pub mod constants;
 pub mod error;
 pub mod grid;
 pub mod io;
 pub mod map;
+pub mod palette;
 pub mod progress;
 pub mod rational;
 pub mod synth;

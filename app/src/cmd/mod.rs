@@ -3,4 +3,5 @@
 pub mod demo;
 pub mod inspect;
 pub mod lines;
+pub mod palettes;
 pub mod synth;
