@@ -67,7 +67,8 @@ pub const D65_WHITE_XYZ: [f64; 3] = [0.3127 / 0.3290, 1.0, (1.0 - 0.3127 - 0.329
 
 /// Chromaticities (x, y) of the sRGB red, green and blue primaries and of the D65 white
 /// (IEC 61966-2-1), from which [`SRGB_TO_XYZ`] is derived.
-pub const SRGB_PRIMARIES_XY: [[f64; 2]; 4] = [[0.64, 0.33], [0.30, 0.60], [0.15, 0.06], [0.3127, 0.3290]];
+pub const SRGB_PRIMARIES_XY: [[f64; 2]; 4] =
+    [[0.64, 0.33], [0.30, 0.60], [0.15, 0.06], [0.3127, 0.3290]];
 
 fn mul(m: &[[f64; 3]; 3], v: [f64; 3]) -> [f64; 3] {
     [
@@ -230,8 +231,7 @@ pub fn delta_e_ok(a: [f64; 3], b: [f64; 3]) -> f64 {
 
 /// Whether a linear sRGB colour lies inside the sRGB gamut, allowing `tolerance` per channel.
 pub fn in_gamut(c: LinearRgb, tolerance: f64) -> bool {
-    c.iter()
-        .all(|&v| v >= -tolerance && v <= 1.0 + tolerance)
+    c.iter().all(|&v| v >= -tolerance && v <= 1.0 + tolerance)
 }
 
 /// The displayable colour for an OkLCh request (L in [0, 1], chroma C ≥ 0, hue h in degrees):
@@ -362,7 +362,12 @@ mod tests {
 
     #[test]
     fn xyz_matrices_are_inverse() {
-        for c in [[1.0, 0.0, 0.0], [0.0, 1.0, 0.0], [0.0, 0.0, 1.0], [0.2, 0.5, 0.9]] {
+        for c in [
+            [1.0, 0.0, 0.0],
+            [0.0, 1.0, 0.0],
+            [0.0, 0.0, 1.0],
+            [0.2, 0.5, 0.9],
+        ] {
             let back = xyz_to_linear_srgb(linear_srgb_to_xyz(c));
             for k in 0..3 {
                 assert!((back[k] - c[k]).abs() < 1e-9);

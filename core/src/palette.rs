@@ -12,9 +12,9 @@
 //! deuteranopia; each carries an outline colour (black or white) so it reads on every palette.
 
 use crate::colour::{
-    delta_e_ok, gamut_map_oklch, lightness, linear_srgb_to_oklab, linear_to_srgb8,
-    oklab_to_oklch, simulate_deficiency, srgb8_to_linear, srgb8_to_oklab, srgb_encode, to_hex,
-    Deficiency, LinearRgb,
+    delta_e_ok, gamut_map_oklch, lightness, linear_srgb_to_oklab, linear_to_srgb8, oklab_to_oklch,
+    simulate_deficiency, srgb8_to_linear, srgb8_to_oklab, srgb_encode, to_hex, Deficiency,
+    LinearRgb,
 };
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
@@ -274,12 +274,23 @@ impl Path3 {
         }
     }
 
-    fn recipe(&self) -> String {
-        let common = "Each target is made displayable by lowering chroma at fixed lightness and \
-                      hue until it fits in sRGB (bisection), its Oklab lightness chosen so that \
-                      CIE L* hits the target; 8-bit rounding picks, among the nearby 8-bit \
-                      colours, the one nearest in Oklab that keeps L* strictly rising (also \
-                      under simulated protanopia and deuteranopia).";
+    fn recipe(&self, observers: &[Option<Deficiency>]) -> String {
+        let who: Vec<&str> = observers.iter().flatten().map(|d| d.name()).collect();
+        let who = match who.len() {
+            0 => String::new(),
+            1 => format!(" (also under simulated {})", who[0]),
+            n => format!(
+                " (also under simulated {} and {})",
+                who[..n - 1].join(", "),
+                who[n - 1]
+            ),
+        };
+        let common = format!(
+            "Each target is made displayable by lowering chroma at fixed lightness and hue \
+             until it fits in sRGB (bisection), its Oklab lightness chosen so that CIE L* hits \
+             the target; 8-bit rounding picks, among the nearby 8-bit colours, the one nearest \
+             in Oklab that keeps L* strictly rising{who}."
+        );
         match *self {
             Path3::Arc { l, h, c, bulge } => format!(
                 "256 targets at t = i/255: CIE L* linear {:.0} → {:.0}; OkLCh hue linear \
@@ -330,11 +341,19 @@ fn solve_target(l_star: f64, a: f64, b: f64) -> LinearRgb {
     gamut_map_oklch(0.5 * (lo + hi), c, h)
 }
 
-/// Observers whose lightness order the quantiser keeps.
+/// Observers whose lightness order the quantiser keeps in every palette.
 const ORDER_OBSERVERS: [Option<Deficiency>; 3] = [
     None,
     Some(Deficiency::Protanopia),
     Some(Deficiency::Deuteranopia),
+];
+
+/// The same plus tritanopia, for the palette designed for colour-vision deficiency.
+const ORDER_OBSERVERS_ALL: [Option<Deficiency>; 4] = [
+    None,
+    Some(Deficiency::Protanopia),
+    Some(Deficiency::Deuteranopia),
+    Some(Deficiency::Tritanopia),
 ];
 
 /// Smallest L* rise between neighbouring entries that the quantiser accepts.
@@ -348,15 +367,15 @@ fn seen_lightness(c: LinearRgb, who: Option<Deficiency>) -> f64 {
 }
 
 /// Round a run of targets (in rising-lightness order) to 8-bit colours that keep L* strictly
-/// rising for every observer in [`ORDER_OBSERVERS`]; among the admissible 8-bit colours near
-/// each target the one nearest in Oklab wins.
-fn quantise_rising(targets: &[LinearRgb]) -> Vec<[u8; 3]> {
-    let mut prev = [f64::NEG_INFINITY; ORDER_OBSERVERS.len()];
+/// rising for every observer in `observers`; among the admissible 8-bit colours near each
+/// target the one nearest in Oklab wins.
+fn quantise_rising(targets: &[LinearRgb], observers: &[Option<Deficiency>]) -> Vec<[u8; 3]> {
+    let mut prev = vec![f64::NEG_INFINITY; observers.len()];
     let mut out = Vec::with_capacity(targets.len());
     for &t in targets {
         let goal = linear_srgb_to_oklab(t);
         let base = t.map(|v| (srgb_encode(v.clamp(0.0, 1.0)) * 255.0).floor() as i32);
-        let mut best: Option<([u8; 3], f64, [f64; 3])> = None;
+        let mut best: Option<([u8; 3], f64, Vec<f64>)> = None;
         'radius: for radius in 1..=4i32 {
             for dr in (1 - radius)..=radius {
                 for dg in (1 - radius)..=radius {
@@ -367,17 +386,17 @@ fn quantise_rising(targets: &[LinearRgb]) -> Vec<[u8; 3]> {
                         }
                         let c8 = cand.map(|v| v as u8);
                         let lin = srgb8_to_linear(c8);
-                        let mut keys = [0.0; 3];
-                        let mut ok = true;
-                        for (k, who) in ORDER_OBSERVERS.iter().enumerate() {
-                            keys[k] = seen_lightness(lin, *who);
-                            ok &= keys[k] >= prev[k] + MIN_LIGHTNESS_STEP;
-                        }
-                        if !ok {
+                        let keys: Vec<f64> =
+                            observers.iter().map(|&w| seen_lightness(lin, w)).collect();
+                        if keys
+                            .iter()
+                            .zip(&prev)
+                            .any(|(k, p)| *k < p + MIN_LIGHTNESS_STEP)
+                        {
                             continue;
                         }
                         let d = delta_e_ok(goal, linear_srgb_to_oklab(lin));
-                        if best.is_none_or(|(_, bd, _)| d < bd) {
+                        if best.as_ref().is_none_or(|(_, bd, _)| d < *bd) {
                             best = Some((c8, d, keys));
                         }
                     }
@@ -392,10 +411,7 @@ fn quantise_rising(targets: &[LinearRgb]) -> Vec<[u8; 3]> {
             None => {
                 let c8 = linear_to_srgb8(t);
                 let lin = srgb8_to_linear(c8);
-                let mut keys = [0.0; 3];
-                for (k, who) in ORDER_OBSERVERS.iter().enumerate() {
-                    keys[k] = seen_lightness(lin, *who);
-                }
+                let keys = observers.iter().map(|&w| seen_lightness(lin, w)).collect();
                 (c8, keys)
             }
         };
@@ -416,21 +432,21 @@ fn path_targets(path: &Path3) -> Vec<LinearRgb> {
         .collect()
 }
 
-/// The 8-bit table of a path.
-fn path_colours(path: &Path3) -> Vec<[u8; 3]> {
+/// The 8-bit table of a path, keeping the lightness order for `observers`.
+fn path_colours(path: &Path3, observers: &[Option<Deficiency>]) -> Vec<[u8; 3]> {
     match path {
         Path3::Grey => (0..PALETTE_LEN).map(|i| [i as u8; 3]).collect(),
         Path3::Diverging { .. } => {
             let targets = path_targets(path);
             let half = PALETTE_LEN / 2;
-            let low = quantise_rising(&targets[..half]);
+            let low = quantise_rising(&targets[..half], observers);
             let mut high_rev: Vec<LinearRgb> = targets[half..].to_vec();
             high_rev.reverse();
-            let mut high = quantise_rising(&high_rev);
+            let mut high = quantise_rising(&high_rev, observers);
             high.reverse();
             low.into_iter().chain(high).collect()
         }
-        _ => quantise_rising(&path_targets(path)),
+        _ => quantise_rising(&path_targets(path), observers),
     }
 }
 
@@ -439,6 +455,8 @@ struct Design {
     kind: PaletteKind,
     purpose: &'static str,
     path: Path3,
+    /// Observers whose lightness order the rounding keeps.
+    observers: &'static [Option<Deficiency>],
 }
 
 /// Name of the sequential palette for resistance maps.
@@ -463,6 +481,7 @@ fn designs() -> [Design; 4] {
                 c: (0.07, 0.10),
                 bulge: 0.10,
             },
+            observers: &ORDER_OBSERVERS,
         },
         Design {
             name: SEESAW,
@@ -477,6 +496,7 @@ fn designs() -> [Design; 4] {
                 h_high: 50.0,
                 c: 0.16,
             },
+            observers: &ORDER_OBSERVERS,
         },
         Design {
             name: HARBOUR,
@@ -489,6 +509,7 @@ fn designs() -> [Design; 4] {
                 start: (0.13, 262.0),
                 end: (0.16, 100.0),
             },
+            observers: &ORDER_OBSERVERS_ALL,
         },
         Design {
             name: ASH,
@@ -496,6 +517,7 @@ fn designs() -> [Design; 4] {
             purpose: "Neutral grey ramp for print, for overlays in colour, or when hue would \
                       distract: black to white.",
             path: Path3::Grey,
+            observers: &ORDER_OBSERVERS,
         },
     ]
 }
@@ -505,8 +527,8 @@ fn generate(d: &Design) -> Palette {
         name: d.name.to_string(),
         kind: d.kind,
         purpose: d.purpose.to_string(),
-        recipe: d.path.recipe(),
-        colours: path_colours(&d.path),
+        recipe: d.path.recipe(d.observers),
+        colours: path_colours(&d.path, d.observers),
     }
 }
 
@@ -567,8 +589,7 @@ mod hex_one {
 
     pub fn deserialize<'de, D: Deserializer<'de>>(d: D) -> Result<[u8; 3], D::Error> {
         let t = String::deserialize(d)?;
-        parse_hex(&t)
-            .ok_or_else(|| D::Error::custom(format!("`{t}` is not a #rrggbb hex colour")))
+        parse_hex(&t).ok_or_else(|| D::Error::custom(format!("`{t}` is not a #rrggbb hex colour")))
     }
 }
 
@@ -641,9 +662,7 @@ fn choose_companions() -> Vec<Companion> {
             for b in (0..=255u16).step_by(15) {
                 let c = [r as u8, g as u8, b as u8];
                 let lch = oklab_to_oklch(srgb8_to_oklab(c));
-                if (COMPANION_L.0..=COMPANION_L.1).contains(&lch[0])
-                    && lch[1] >= COMPANION_CHROMA
-                {
+                if (COMPANION_L.0..=COMPANION_L.1).contains(&lch[0]) && lch[1] >= COMPANION_CHROMA {
                     cands.push((c, lch[1]));
                 }
             }
@@ -871,7 +890,7 @@ mod tests {
                 continue;
             }
             let targets = path_targets(&d.path);
-            let table = path_colours(&d.path);
+            let table = path_colours(&d.path, d.observers);
             for (i, (t, c)) in targets.iter().zip(&table).enumerate() {
                 let e = delta_e_ok(linear_srgb_to_oklab(*t), srgb8_to_oklab(*c));
                 assert!(e < 0.01, "{} entry {i}: ΔE_OK {e}", d.name);
