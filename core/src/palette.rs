@@ -102,26 +102,24 @@ impl Palette {
     }
 
     /// The colour at t ∈ [0, 1] by linear interpolation between neighbouring table entries
-    /// (in encoded sRGB, rounded). t outside [0, 1] is clamped; NaN gives the first colour, so
-    /// callers should draw missing data with their own colour before sampling.
+    /// (in encoded sRGB, fixed point with 1/256 steps between entries, rounded). t outside
+    /// [0, 1] is clamped; NaN gives the first colour, so callers should draw missing data with
+    /// their own colour before sampling.
+    #[inline]
     pub fn sample(&self, t: f64) -> [u8; 3] {
         let n = self.colours.len();
         if n == 0 {
             return [0; 3];
         }
         let t = if t.is_nan() { 0.0 } else { t.clamp(0.0, 1.0) };
-        let x = t * (n - 1) as f64;
-        // x ∈ [0, n−1], so the casts stay in range.
-        let i = (x.floor() as usize).min(n - 1);
+        // Position in 1/256 steps of the table; t ∈ [0, 1] keeps it in range.
+        let x = (t * ((n - 1) * 256) as f64 + 0.5) as usize;
+        let i = (x >> 8).min(n - 1);
+        let f = (x & 255) as u32;
         let j = (i + 1).min(n - 1);
-        let f = x - i as f64;
         let (a, b) = (self.colours[i], self.colours[j]);
-        let mut out = [0u8; 3];
-        for k in 0..3 {
-            let v = f64::from(a[k]) + f * (f64::from(b[k]) - f64::from(a[k]));
-            out[k] = v.round().clamp(0.0, 255.0) as u8;
-        }
-        out
+        let mix = |k: usize| ((u32::from(a[k]) * (256 - f) + u32::from(b[k]) * f + 128) >> 8) as u8;
+        [mix(0), mix(1), mix(2)]
     }
 
     /// The same palette run backwards (last colour first), named `<name>-reversed`.
@@ -819,7 +817,7 @@ fn readme() -> String {
             p.kind.name(),
             l[0],
             l[l.len() - 1],
-            p.purpose
+            p.purpose.replace('|', "\\|")
         );
     }
     let _ = writeln!(s);
