@@ -309,10 +309,22 @@ impl Path3 {
                 c,
             } => format!(
                 "256 targets at t = i/255, u = |2t − 1|: CIE L* = {:.0} − ({:.0} − {:.0})·u \
-                 (symmetric, neutral centre at t = ½); OkLCh hue {:.0}° below the centre and \
+                 (symmetric, neutral {} centre at t = ½); OkLCh hue {:.0}° below the centre and \
                  {:.0}° above; Oklab chroma {:.3}·(1 − (1 − u)²). {} Each half is rounded from \
-                 its dark end towards the centre.",
-                l_centre, l_centre, l_end, h_low, h_high, c, common
+                 its dark end {}.",
+                l_centre,
+                l_centre,
+                l_end,
+                if l_centre > l_end { "light" } else { "dark" },
+                h_low,
+                h_high,
+                c,
+                common,
+                if l_centre > l_end {
+                    "towards the centre"
+                } else {
+                    "(the centre) outwards"
+                }
             ),
             Path3::Grey => "All 256 8-bit grey levels 0 → 255 in order (R = G = B). CIE L* runs \
                             0 → 100, nearly evenly spaced because the sRGB transfer curve is \
@@ -434,14 +446,28 @@ fn path_targets(path: &Path3) -> Vec<LinearRgb> {
 fn path_colours(path: &Path3, observers: &[Option<Deficiency>]) -> Vec<[u8; 3]> {
     match path {
         Path3::Grey => (0..PALETTE_LEN).map(|i| [i as u8; 3]).collect(),
-        Path3::Diverging { .. } => {
+        Path3::Diverging {
+            l_end, l_centre, ..
+        } => {
             let targets = path_targets(path);
             let half = PALETTE_LEN / 2;
-            let low = quantise_rising(&targets[..half], observers);
-            let mut high_rev: Vec<LinearRgb> = targets[half..].to_vec();
-            high_rev.reverse();
-            let mut high = quantise_rising(&high_rev, observers);
-            high.reverse();
+            let mut low = targets[..half].to_vec();
+            let mut high = targets[half..].to_vec();
+            // Round each half in rising-lightness order: from the ends inwards when the centre
+            // is light, from the centre outwards when it is dark.
+            let light_centre = l_centre > l_end;
+            if light_centre {
+                high.reverse();
+            } else {
+                low.reverse();
+            }
+            let mut low = quantise_rising(&low, observers);
+            let mut high = quantise_rising(&high, observers);
+            if light_centre {
+                high.reverse();
+            } else {
+                low.reverse();
+            }
             low.into_iter().chain(high).collect()
         }
         _ => quantise_rising(&path_targets(path), observers),
@@ -461,12 +487,14 @@ struct Design {
 pub const KILN: &str = "kiln";
 /// Name of the diverging palette for signed maps.
 pub const SEESAW: &str = "seesaw";
+/// Name of the diverging palette with a dark centre.
+pub const UNDERTOW: &str = "undertow";
 /// Name of the blue–yellow sequential palette for colour-vision deficiency.
 pub const HARBOUR: &str = "harbour";
 /// Name of the grey ramp.
 pub const ASH: &str = "ash";
 
-fn designs() -> [Design; 4] {
+fn designs() -> [Design; 5] {
     [
         Design {
             name: KILN,
@@ -493,6 +521,21 @@ fn designs() -> [Design; 4] {
                 h_low: 255.0,
                 h_high: 50.0,
                 c: 0.16,
+            },
+            observers: &ORDER_OBSERVERS,
+        },
+        Design {
+            name: UNDERTOW,
+            kind: PaletteKind::Diverging,
+            purpose: "Signed quantities where zero should recede, e.g. a transconductance map \
+                      whose plateaus are dark and whose steps glow: sky blue for negative, \
+                      amber for positive, near-black at zero.",
+            path: Path3::Diverging {
+                l_end: 88.0,
+                l_centre: 12.0,
+                h_low: 240.0,
+                h_high: 75.0,
+                c: 0.14,
             },
             observers: &ORDER_OBSERVERS,
         },
@@ -530,7 +573,8 @@ fn generate(d: &Design) -> Palette {
     }
 }
 
-/// The built-in palettes, generated once on first use: `kiln`, `seesaw`, `harbour`, `ash`.
+/// The built-in palettes, generated once on first use: `kiln`, `seesaw`, `undertow`,
+/// `harbour`, `ash`.
 pub fn builtin() -> &'static [Palette] {
     static PALETTES: OnceLock<Vec<Palette>> = OnceLock::new();
     PALETTES.get_or_init(|| designs().iter().map(generate).collect())

@@ -219,7 +219,7 @@ fn the_required_palettes_exist() {
         .iter()
         .filter(|p| p.kind() == PaletteKind::Diverging)
         .count();
-    assert!(seq >= 3 && div >= 1, "{seq} sequential, {div} diverging");
+    assert!(seq >= 3 && div >= 2, "{seq} sequential, {div} diverging");
     for p in all {
         assert_eq!(p.colours().len(), PALETTE_LEN, "{}", p.name());
         assert!(!p.recipe().is_empty() && !p.purpose().is_empty());
@@ -312,12 +312,23 @@ fn diverging_lightness_is_symmetric_and_monotone_on_each_half() {
                     );
                 }
             }
+            // Light centre: L* rises towards the middle; dark centre: it falls.
+            let sign = if l[n / 2] > l[0] { 1.0 } else { -1.0 };
             for i in 1..n / 2 {
-                assert!(l[i] > l[i - 1], "{} ({who:?}) lower half at {i}", p.name());
+                assert!(
+                    sign * (l[i] - l[i - 1]) > 0.0,
+                    "{} ({who:?}) lower half at {i}",
+                    p.name()
+                );
             }
             for i in n / 2..n - 1 {
-                assert!(l[i] > l[i + 1], "{} ({who:?}) upper half at {i}", p.name());
+                assert!(
+                    sign * (l[i] - l[i + 1]) > 0.0,
+                    "{} ({who:?}) upper half at {i}",
+                    p.name()
+                );
             }
+            assert!((l[n / 2] - l[0]).abs() > 50.0, "{}: L* range", p.name());
         }
         // Neutral centre, two clearly different hues on the arms.
         let mid = oklab_to_oklch(srgb8_to_oklab(p.sample(0.5)));
