@@ -173,8 +173,8 @@ fn srgb_matrix_follows_from_the_primaries_and_d65() {
 
 #[test]
 fn dichromat_simulation_collapses_onto_the_blue_yellow_axis() {
-    // The Machado, Oliveira & Fernandes (2009) severity-1.0 matrices (typed from memory and
-    // compared with public colour-library documentation) model protanopes and deuteranopes,
+    // The Machado, Oliveira & Fernandes (2009) severity-1.0 matrices (values from memory, M)
+    // model protanopes and deuteranopes,
     // whose remaining colour sense is one blue–yellow axis: every simulated colour with some
     // chroma has an Oklab hue near yellow (≈ 90–110°) or near blue (≈ 250–280°).
     for d in [Deficiency::Protanopia, Deficiency::Deuteranopia] {
