@@ -27,6 +27,8 @@ enum Command {
     Demo(cmd::demo::Args),
     /// Print the predicted lines (t, s) for a described device.
     Lines(cmd::lines::Args),
+    /// List the built-in heat-map palettes and overlay colours, or write them as files.
+    Palettes(cmd::palettes::Args),
 }
 
 fn main() -> ExitCode {
@@ -36,6 +38,7 @@ fn main() -> ExitCode {
         Command::Synth(a) => cmd::synth::run(a),
         Command::Demo(a) => cmd::demo::run(a),
         Command::Lines(a) => cmd::lines::run(a),
+        Command::Palettes(a) => cmd::palettes::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -9,11 +9,13 @@
 // rejects bad values needs.
 #![allow(clippy::neg_cmp_op_on_partial_ord)]
 
+pub mod colour;
 pub mod constants;
 pub mod error;
 pub mod grid;
 pub mod io;
 pub mod map;
+pub mod palette;
 pub mod progress;
 pub mod rational;
 pub mod synth;

@@ -4,4 +4,5 @@ pub mod demo;
 pub mod inspect;
 pub mod lines;
 pub mod load_args;
+pub mod palettes;
 pub mod synth;
