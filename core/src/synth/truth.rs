@@ -1,0 +1,231 @@
+//! The known truth of a synthetic map: device parameters and every state with where it is
+//! visible, as serde JSON whose key names carry their units.
+
+use super::config::SynthConfig;
+use super::device::{DeviceName, LAB_NAME};
+use super::flaws::FlawLog;
+use super::model::Model;
+use super::states::StateKind;
+use crate::rational::Rational;
+use serde::{Deserialize, Serialize};
+
+/// Format name written in every truth file.
+pub const TRUTH_FORMAT: &str = "fanmark-synth-truth";
+/// Version of the truth format.
+pub const TRUTH_VERSION: u32 = 1;
+/// Field points of the scan that finds each state's onset.
+const ONSET_SCAN_POINTS: usize = 561;
+
+/// Hall-bar geometry.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct Geometry {
+    /// Channel width W, µm.
+    pub width_um: f64,
+    /// Voltage-probe spacing L, µm.
+    pub length_um: f64,
+    /// W/L, the factor from R_xx to ρ_xx.
+    pub w_over_l: f64,
+}
+
+/// One state of the truth.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct TruthState {
+    /// Kind of feature.
+    pub kind: StateKind,
+    /// Readable label, e.g. `ν = 2` or `(t, s) = (-1, 1)`.
+    pub label: String,
+    /// Slope t in e/h (null for a Brown–Zak feature).
+    pub t: Option<Rational>,
+    /// Intercept s in n₀ (null for a Brown–Zak feature).
+    pub s: Option<Rational>,
+    /// Filling factor ν, when s = 0.
+    pub nu: Option<Rational>,
+    /// Flux per moiré cell φ/φ₀ of a Brown–Zak feature.
+    pub phi_over_phi0: Option<Rational>,
+    /// Field of a Brown–Zak feature, T.
+    #[serde(rename = "b_T")]
+    pub b_t: Option<f64>,
+    /// Intrinsic gap Δ at `b_max_T` (before disorder broadening), K.
+    #[serde(rename = "gap_K")]
+    pub gap_k: Option<f64>,
+    /// Disorder broadening Γ subtracted from the gap, K.
+    #[serde(rename = "broadening_K")]
+    pub broadening_k: Option<f64>,
+    /// Lowest field at which its R_xx dip (or peak) exceeds 3× the noise and its plateau spans
+    /// at least one gate step; null if never.
+    #[serde(rename = "b_onset_T")]
+    pub b_onset_t: Option<f64>,
+    /// Highest field of the map at which its line lies inside the gate range; null if never.
+    #[serde(rename = "b_max_T")]
+    pub b_max_t: Option<f64>,
+    /// True if the state is visible somewhere in the map's range.
+    pub visible: bool,
+}
+
+/// Everything known about a synthetic map.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Truth {
+    /// Always [`TRUTH_FORMAT`].
+    pub format: String,
+    /// Always [`TRUTH_VERSION`].
+    pub version: u32,
+    /// The (invented) lab.
+    pub lab: String,
+    /// Device name.
+    pub device: DeviceName,
+    /// Stack description.
+    pub stack: String,
+    /// Seed used.
+    pub seed: u64,
+    /// Gate lever arm α, cm⁻² V⁻¹.
+    #[serde(rename = "alpha_cm2_per_V")]
+    pub alpha_cm2_per_v: f64,
+    /// Charge-neutrality gate voltage, V.
+    #[serde(rename = "v_cnp_V")]
+    pub v_cnp_v: f64,
+    /// n₀ = 1/A, cm⁻² (null without a superlattice).
+    pub n0_cm2: Option<f64>,
+    /// Moiré wavelength, nm.
+    pub lambda_nm: Option<f64>,
+    /// Twist angle to hBN, degrees.
+    pub twist_deg: Option<f64>,
+    /// Lattice mismatch δ.
+    pub lattice_mismatch: Option<f64>,
+    /// Field of one flux quantum h/e per moiré cell, T.
+    #[serde(rename = "one_flux_field_T")]
+    pub one_flux_field_t: Option<f64>,
+    /// Hall-bar geometry.
+    pub geometry: Geometry,
+    /// Sample temperature, K.
+    #[serde(rename = "temperature_K")]
+    pub temperature_k: f64,
+    /// Relative disorder.
+    pub disorder: f64,
+    /// Hall sign convention of the CSV.
+    pub hall_convention: String,
+    /// Every state and feature.
+    pub states: Vec<TruthState>,
+    /// Where the flaws went.
+    pub flaws_applied: FlawLog,
+    /// The configuration that produced the map.
+    pub config: SynthConfig,
+}
+
+/// Round to `digits` significant digits, so the truth text is stable and readable.
+pub(crate) fn round_sig(x: f64, digits: i32) -> f64 {
+    if x == 0.0 || !x.is_finite() {
+        return x;
+    }
+    let e = x.abs().log10().floor() as i32;
+    let scale = 10f64.powi(digits - 1 - e);
+    (x * scale).round() / scale
+}
+
+fn label(t: Rational, s: Rational) -> String {
+    if s.is_zero() {
+        format!("ν = {t}")
+    } else {
+        format!("(t, s) = ({t}, {s})")
+    }
+}
+
+/// Onset and top field of state `j` in the map's ranges.
+fn visibility(model: &Model, cfg: &SynthConfig, j: usize) -> (Option<f64>, Option<f64>) {
+    let (b_lo, b_hi) = cfg.field_range_t;
+    let (g_lo, g_hi) = cfg.gate_range_v;
+    let gate_step_density =
+        model.device.alpha_m2_per_v() * (g_hi - g_lo) / (cfg.gate_points.max(2) - 1) as f64;
+    let mut onset = None;
+    let mut top = None;
+    for i in 0..ONSET_SCAN_POINTS {
+        let b = b_lo + (b_hi - b_lo) * i as f64 / (ONSET_SCAN_POINTS - 1) as f64;
+        let n = model.line_density(j, b);
+        let vg = model.device.gate_for_density(n);
+        if !(g_lo..=g_hi).contains(&vg) || model.domain_weight_on_line(j, b) < 0.5 {
+            continue;
+        }
+        top = Some(b);
+        if onset.is_some() {
+            continue;
+        }
+        if 2.0 * model.plateau_half_width(j, b) < gate_step_density {
+            continue;
+        }
+        let with = model.rxx_at_density(n, b, None);
+        let without = model.rxx_at_density(n, b, Some(j));
+        if (with - without).abs() > 3.0 * cfg.noise.sigma(without).max(0.5) {
+            onset = Some(b);
+        }
+    }
+    (onset, top)
+}
+
+/// Build the truth of a map made from `cfg` with `model`, given where the flaws went.
+pub fn build_truth(model: &Model, cfg: &SynthConfig, log: FlawLog) -> Truth {
+    let d = &model.device;
+    let mut states = Vec::new();
+    for (j, st) in model.states.iter().enumerate() {
+        let (onset, top) = visibility(model, cfg, j);
+        states.push(TruthState {
+            kind: st.kind,
+            label: label(st.t, st.s),
+            t: Some(st.t),
+            s: Some(st.s),
+            nu: st.s.is_zero().then_some(st.t),
+            phi_over_phi0: None,
+            b_t: None,
+            gap_k: top.map(|b| round_sig(st.gap.gap_k(b), 6)),
+            broadening_k: Some(round_sig(model.broadening_k(j), 6)),
+            b_onset_t: onset.map(|b| round_sig(b, 6)),
+            b_max_t: top.map(|b| round_sig(b, 6)),
+            visible: onset.is_some(),
+        });
+    }
+    let (b_lo, b_hi) = cfg.field_range_t;
+    for bz in &model.brown_zak {
+        let inside = (b_lo..=b_hi).contains(&bz.field_t);
+        let b = round_sig(bz.field_t, 7);
+        states.push(TruthState {
+            kind: StateKind::BrownZak,
+            label: format!("φ/φ₀ = 1/{}", bz.q),
+            t: None,
+            s: None,
+            nu: None,
+            phi_over_phi0: Rational::new(1, bz.q).ok(),
+            b_t: Some(b),
+            gap_k: None,
+            broadening_k: None,
+            b_onset_t: inside.then_some(b),
+            b_max_t: inside.then_some(b),
+            visible: inside,
+        });
+    }
+    Truth {
+        format: TRUTH_FORMAT.into(),
+        version: TRUTH_VERSION,
+        lab: LAB_NAME.into(),
+        device: d.name,
+        stack: d.stack.clone(),
+        seed: cfg.seed,
+        alpha_cm2_per_v: round_sig(d.alpha_m2_per_v() / 1e4, 9),
+        v_cnp_v: d.v_cnp,
+        n0_cm2: d.moire.map(|m| round_sig(m.n0_m2() / 1e4, 9)),
+        lambda_nm: d.moire.map(|m| round_sig(m.wavelength_m() * 1e9, 9)),
+        twist_deg: d.moire.map(|m| m.twist_deg),
+        lattice_mismatch: d.moire.map(|m| m.mismatch),
+        one_flux_field_t: d.moire.map(|m| round_sig(m.one_flux_field_t(), 9)),
+        geometry: Geometry {
+            width_um: round_sig(d.width_m * 1e6, 9),
+            length_um: round_sig(d.length_m * 1e6, 9),
+            w_over_l: round_sig(d.width_m / d.length_m, 9),
+        },
+        temperature_k: cfg.temperature_k,
+        disorder: cfg.disorder,
+        hall_convention: "R_xy = +R_K/ν on a plateau with ν > 0 (electrons, B > 0); \
+                          σ_xy = −ρ_xy/(ρ_xx²+ρ_xy²)"
+            .into(),
+        states,
+        flaws_applied: log,
+        config: cfg.clone(),
+    }
+}
