@@ -5,3 +5,9 @@ pub mod features;
 pub mod synthetic;
 pub mod score;
 pub mod stack;
+pub mod calibrate;
+pub mod fit;
+pub mod brown_zak;
+pub mod run;
+
+pub use run::{index_map, IndexOptions, IndexReport};
