@@ -27,6 +27,10 @@ enum Command {
     Demo(cmd::demo::Args),
     /// Print the predicted lines (t, s) for a described device.
     Lines(cmd::lines::Args),
+    /// Calibrate the gate from the data: Hall slope, quantum Hall fan and geometry.
+    Calibrate(cmd::calibrate::Args),
+    /// Find and index every gap: states with (t, s), score, onset and Hall check.
+    Index(cmd::index::Args),
 }
 
 fn main() -> ExitCode {
@@ -36,6 +40,8 @@ fn main() -> ExitCode {
         Command::Synth(a) => cmd::synth::run(a),
         Command::Demo(a) => cmd::demo::run(a),
         Command::Lines(a) => cmd::lines::run(a),
+        Command::Calibrate(a) => cmd::calibrate::run(a),
+        Command::Index(a) => cmd::index::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -16,7 +16,9 @@ pub fn find_brown_zak(map: &Map, g: &Array2<f64>, n0_m2: f64) -> Vec<BrownZakFie
     if rows < 9 || !(n0_m2 > 0.0) {
         return Vec::new();
     }
-    let prof: Vec<f64> = (0..rows).map(|i| median(g.row(i).iter().copied())).collect();
+    let prof: Vec<f64> = (0..rows)
+        .map(|i| median(g.row(i).iter().copied()))
+        .collect();
     let w = (rows / 10).max(3);
     let resid: Vec<f64> = (0..rows)
         .map(|i| {

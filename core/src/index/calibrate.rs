@@ -157,8 +157,12 @@ pub fn from_hall_slope(map: &Map, v_hint: Option<f64>) -> Option<GateEstimate> {
     let b = map.y().values();
     let v = map.x().values();
     let (bmin, bmax) = (map.y().min(), map.y().max());
-    let top = (bmin + 0.15 * (bmax - bmin)).min(bmin.max(0.0) + 1.5).max(bmin + 0.3);
-    let rows: Vec<usize> = (0..b.len()).filter(|&i| b[i] <= top && b[i].abs() > 1e-3).collect();
+    let top = (bmin + 0.15 * (bmax - bmin))
+        .min(bmin.max(0.0) + 1.5)
+        .max(bmin + 0.3);
+    let rows: Vec<usize> = (0..b.len())
+        .filter(|&i| b[i] <= top && b[i].abs() > 1e-3)
+        .collect();
     if rows.len() < 3 {
         return None;
     }
@@ -247,7 +251,9 @@ pub fn from_hall_slope(map: &Map, v_hint: Option<f64>) -> Option<GateEstimate> {
     let vc = -c0 / c1;
     let dv_dc0 = -1.0 / c1;
     let dv_dc1 = c0 / (c1 * c1);
-    let var_vc = dv_dc0 * dv_dc0 * cov[0][0] + 2.0 * dv_dc0 * dv_dc1 * cov[0][1] + dv_dc1 * dv_dc1 * cov[1][1];
+    let var_vc = dv_dc0 * dv_dc0 * cov[0][0]
+        + 2.0 * dv_dc0 * dv_dc1 * cov[0][1]
+        + dv_dc1 * dv_dc1 * cov[1][1];
     Some(GateEstimate {
         alpha_cm2_per_v: c1 / 1e4,
         alpha_sigma_cm2_per_v: cov[1][1].sqrt() / 1e4,
@@ -271,7 +277,11 @@ pub fn from_geometry(dielectric: &Dielectric) -> Result<GateEstimate> {
 }
 
 /// Strong high-field minima used by method (b): (V, B, weight).
-fn strong_points(map: &Map, minima: &[MinimumPoint], min_field_fraction: f64) -> Vec<(f64, f64, f64)> {
+fn strong_points(
+    map: &Map,
+    minima: &[MinimumPoint],
+    min_field_fraction: f64,
+) -> Vec<(f64, f64, f64)> {
     let (bmin, bmax) = (map.y().min(), map.y().max());
     let bcut = (bmin + min_field_fraction * (bmax - bmin)).max(0.2);
     let mut pts: Vec<(f64, f64, f64)> = minima
@@ -496,17 +506,25 @@ pub fn from_quantum_hall(
 
 /// Choose among the estimates: the quantum Hall fit when found, else the Hall slope, else
 /// geometry (V_CNP then from the largest low-field R_xx).
-pub fn choose(map: &Map, estimates: Vec<GateEstimate>, mut notes: Vec<String>) -> Result<Calibration> {
-    let pick = [CalibrationMethod::QuantumHall, CalibrationMethod::HallSlope, CalibrationMethod::Geometry]
-        .iter()
-        .find_map(|m| estimates.iter().find(|e| e.method == *m).copied())
-        .ok_or_else(|| {
-            Error::MapRequirement(
-                "no calibration could be found: the map shows neither a quantum Hall fan nor a \
+pub fn choose(
+    map: &Map,
+    estimates: Vec<GateEstimate>,
+    mut notes: Vec<String>,
+) -> Result<Calibration> {
+    let pick = [
+        CalibrationMethod::QuantumHall,
+        CalibrationMethod::HallSlope,
+        CalibrationMethod::Geometry,
+    ]
+    .iter()
+    .find_map(|m| estimates.iter().find(|e| e.method == *m).copied())
+    .ok_or_else(|| {
+        Error::MapRequirement(
+            "no calibration could be found: the map shows neither a quantum Hall fan nor a \
                  low-field Hall slope; give --calibration or the dielectric"
-                    .into(),
-            )
-        })?;
+                .into(),
+        )
+    })?;
     let (v, sv) = match (pick.v_cnp_v, pick.v_cnp_sigma_v) {
         (Some(v), Some(s)) => (v, s),
         _ => {
@@ -516,8 +534,12 @@ pub fn choose(map: &Map, estimates: Vec<GateEstimate>, mut notes: Vec<String>) -
         }
     };
     if let (Some(a), Some(b)) = (
-        estimates.iter().find(|e| e.method == CalibrationMethod::HallSlope),
-        estimates.iter().find(|e| e.method == CalibrationMethod::QuantumHall),
+        estimates
+            .iter()
+            .find(|e| e.method == CalibrationMethod::HallSlope),
+        estimates
+            .iter()
+            .find(|e| e.method == CalibrationMethod::QuantumHall),
     ) {
         let d = (a.alpha_cm2_per_v - b.alpha_cm2_per_v).abs();
         let s = a.alpha_sigma_cm2_per_v.hypot(b.alpha_sigma_cm2_per_v);
@@ -603,6 +625,7 @@ pub fn moire_density(
     }
     let steps = 800;
     let mut best = (f64::NEG_INFINITY, lo);
+    let mut all = Vec::with_capacity(steps + 1);
     for i in 0..=steps {
         let n0 = lo * (hi / lo).powf(i as f64 / steps as f64);
         let sc: f64 = pts
@@ -613,9 +636,14 @@ pub fn moire_density(
                 w * (-0.5 * u * u).exp()
             })
             .sum();
+        all.push(sc);
         if sc > best.0 {
             best = (sc, n0);
         }
+    }
+    // A superlattice must stand out of the chance coincidences of the scan.
+    if best.0 < 2.0 * median(all.iter().copied()) {
+        return None;
     }
     let mut n0 = best.1;
     let mut out = None;
@@ -649,6 +677,9 @@ pub fn moire_density(
         out = Some((n0, (var / neff).sqrt(), used.len()));
     }
     let (n0, sn0, count) = out?;
+    if !(n0 >= lo && n0 <= hi) {
+        return None;
+    }
     let moire = crate::moire::Moire::from_n0(n0).ok()?;
     Some(MoireEstimate {
         n0_cm2: n0 / 1e4,
@@ -677,6 +708,15 @@ pub fn calibrate_map(
     if let (Some(ea), Some(eb)) = (a, b) {
         if (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3 {
             b = from_quantum_hall(map, minima, stack, Some(&ea), &mut notes);
+            if let Some(eb) = b {
+                if (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3 {
+                    notes.push(format!(
+                        "the quantum Hall fan gave α = {:.4e} cm⁻²/V, far from the Hall slope;                          it is not used",
+                        eb.alpha_cm2_per_v
+                    ));
+                    b = None;
+                }
+            }
         }
     }
     let mut est: Vec<GateEstimate> = [b, a].into_iter().flatten().collect();

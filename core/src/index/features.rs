@@ -153,7 +153,11 @@ fn strength_row(l: &[f64], opts: &GapMapOptions) -> (Vec<f64>, f64) {
 /// Noise floor of R_xx near zero (Ω): the robust scatter of second differences among the 10 %
 /// smallest |R_xx|, times 3; at least 10⁻⁹ of the largest |R_xx|.
 fn rxx_floor(rxx: &Array2<f64>) -> f64 {
-    let mut abs: Vec<f64> = rxx.iter().filter(|v| v.is_finite()).map(|v| v.abs()).collect();
+    let mut abs: Vec<f64> = rxx
+        .iter()
+        .filter(|v| v.is_finite())
+        .map(|v| v.abs())
+        .collect();
     if abs.is_empty() {
         return 1e-9;
     }
@@ -162,7 +166,10 @@ fn rxx_floor(rxx: &Array2<f64>) -> f64 {
     let max = abs[abs.len() - 1];
     let mut diffs = Vec::new();
     for row in rxx.axis_iter(NdAxis(0)) {
-        let r = row.as_slice().map(|s| s.to_vec()).unwrap_or_else(|| row.to_vec());
+        let r = row
+            .as_slice()
+            .map(|s| s.to_vec())
+            .unwrap_or_else(|| row.to_vec());
         for i in 1..r.len().saturating_sub(1) {
             if r[i].abs() <= cut && r[i - 1].abs() <= cut && r[i + 1].abs() <= cut {
                 diffs.push(r[i] - 0.5 * (r[i - 1] + r[i + 1]));
@@ -253,7 +260,10 @@ pub(crate) fn check_axes(map: &Map) -> Result<()> {
             map.y().quantity
         )));
     }
-    if !matches!(map.x().quantity, Quantity::Gate | Quantity::BottomGate | Quantity::TopGate) {
+    if !matches!(
+        map.x().quantity,
+        Quantity::Gate | Quantity::BottomGate | Quantity::TopGate
+    ) {
         return Err(Error::MapRequirement(format!(
             "indexing needs a single gate voltage on the column axis; the columns are `{}` ({:?})",
             map.x().name,
@@ -475,7 +485,12 @@ pub fn sigma_xy_e2h(map: &Map) -> Option<Array2<f64>> {
 
 /// Runs of at least `min_len` gate points along which σ_xy changes by less than `tol` e²/h per
 /// point (a Hall plateau, where |dσ_xy/dn| is small).
-pub fn find_plateaus(map: &Map, sxy: &Array2<f64>, tol: f64, min_len: usize) -> Vec<PlateauSegment> {
+pub fn find_plateaus(
+    map: &Map,
+    sxy: &Array2<f64>,
+    tol: f64,
+    min_len: usize,
+) -> Vec<PlateauSegment> {
     let x = map.x().values();
     let y = map.y().values();
     let (rows, cols) = sxy.dim();
@@ -554,7 +569,12 @@ impl FeatureIndex {
 
     /// Up to `k` nearest points to (gate V, field T), nearest first, with their normalised
     /// distance. Errors on a non-finite query.
-    pub fn nearest(&self, gate_v: f64, field_t: f64, k: usize) -> Result<Vec<(f64, &MinimumPoint)>> {
+    pub fn nearest(
+        &self,
+        gate_v: f64,
+        field_t: f64,
+        k: usize,
+    ) -> Result<Vec<(f64, &MinimumPoint)>> {
         if !(gate_v.is_finite() && field_t.is_finite()) {
             return Err(Error::invalid(
                 "nearest-feature query",

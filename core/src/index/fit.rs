@@ -44,7 +44,10 @@ pub fn fit_line(points: &[FitPoint]) -> Result<LineFit> {
     if good.len() < 3 {
         return Err(Error::invalid(
             "free-fit points",
-            format!("{} usable points: need at least 3 with finite n, B and σ > 0", good.len()),
+            format!(
+                "{} usable points: need at least 3 with finite n, B and σ > 0",
+                good.len()
+            ),
         ));
     }
     let (mut s, mut sx, mut sy, mut sxx, mut sxy) = (0.0, 0.0, 0.0, 0.0, 0.0);
@@ -126,7 +129,10 @@ fn fractions_between(lo: f64, hi: f64, den_max: i64) -> Vec<Rational> {
         return out;
     }
     for q in 1..=den_max {
-        let (a, b) = ((lo * q as f64).ceil() as i64, (hi * q as f64).floor() as i64);
+        let (a, b) = (
+            (lo * q as f64).ceil() as i64,
+            (hi * q as f64).floor() as i64,
+        );
         if b - a > 10_000 {
             break;
         }
@@ -165,7 +171,9 @@ pub fn index_fit(fit: &LineFit, n0_m2: Option<f64>, bounds: &IndexBounds) -> Vec
     let dist = |t: f64, s: f64| -> f64 {
         let (dt, ds) = (t - t_hat, s - s_hat);
         if det > 0.0 {
-            ((ss * ss * dt * dt - 2.0 * cts * dt * ds + st * st * ds * ds) / det).max(0.0).sqrt()
+            ((ss * ss * dt * dt - 2.0 * cts * dt * ds + st * st * ds * ds) / det)
+                .max(0.0)
+                .sqrt()
         } else {
             (dt / st.max(1e-300)).hypot(ds / ss.max(1e-300))
         }

@@ -138,7 +138,10 @@ pub fn classify(stack: Stack, t: Rational, s: Rational) -> (StateClass, Vec<Stri
     if !t.is_integer() {
         return (StateClass::Fractional, flags);
     }
-    if stack.sequence(t.numer().abs().max(1)).contains(&t.numer().abs()) {
+    if stack
+        .sequence(t.numer().abs().max(1))
+        .contains(&t.numer().abs())
+    {
         (StateClass::Integer, flags)
     } else {
         (StateClass::BrokenSymmetry, flags)

@@ -172,7 +172,9 @@ pub fn score_lines(
         .into_par_iter()
         .enumerate()
         .for_each(|(i, mut out)| {
-            let mut order: Vec<usize> = (0..cands.len()).filter(|&k| pos[[i, k]].is_finite()).collect();
+            let mut order: Vec<usize> = (0..cands.len())
+                .filter(|&k| pos[[i, k]].is_finite())
+                .collect();
             order.sort_by(|&a, &b| pos[[i, a]].total_cmp(&pos[[i, b]]));
             for (r, &k) in order.iter().enumerate() {
                 let ck = cands[k].complexity;
@@ -256,7 +258,11 @@ pub fn score_lines(
                     }
                     let lo = i.saturating_sub(win);
                     let hi = (i + win + 1).min(rows);
-                    let v: Vec<f64> = contrast[lo..hi].iter().copied().filter(|x| x.is_finite()).collect();
+                    let v: Vec<f64> = contrast[lo..hi]
+                        .iter()
+                        .copied()
+                        .filter(|x| x.is_finite())
+                        .collect();
                     v.iter().sum::<f64>() / v.len() as f64
                 })
                 .collect();
@@ -328,9 +334,11 @@ pub fn suppress_neighbours(
         .filter(|&i| is_detected(&evidence[i], opts))
         .collect();
     order.sort_by(|&a, &b| {
-        key(&evidence[b])
-            .total_cmp(&key(&evidence[a]))
-            .then(cands[evidence[a].candidate].complexity.total_cmp(&cands[evidence[b].candidate].complexity))
+        key(&evidence[b]).total_cmp(&key(&evidence[a])).then(
+            cands[evidence[a].candidate]
+                .complexity
+                .total_cmp(&cands[evidence[b].candidate].complexity),
+        )
     });
     let b = map.y().values();
     let col = |k: usize, bt: f64| -> f64 {
