@@ -432,8 +432,7 @@ pub fn from_quantum_hall(
         let missing = seq
             .iter()
             .filter(|&&s| s <= top)
-            .map(|&s| [s, -s])
-            .flatten()
+            .flat_map(|&s| [s, -s])
             .filter(|m| !hit.contains(m))
             .count();
         let mean = if nm > 0 { wm / nm as f64 } else { 0.0 };

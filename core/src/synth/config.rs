@@ -74,7 +74,11 @@ impl SynthConfig {
         let gate_range_v = (glo * g.range(shrink_lo, 1.0), ghi * g.range(shrink_lo, 1.0));
         let (_, bhi) = d.field_range_t;
         let field_range_t = (
-            if g.chance(0.5) { 0.0 } else { g.range(0.0, 1.0) },
+            if g.chance(0.5) {
+                0.0
+            } else {
+                g.range(0.0, 1.0)
+            },
             bhi * g.range(0.7, 1.0),
         );
         let mut flaws = Flaws::none();
@@ -113,9 +117,13 @@ impl SynthConfig {
 
     /// Check every field; errors name the field and what was expected.
     pub fn validate(&self) -> Result<()> {
-        let bad = |what: &str, msg: String| Err(Error::invalid(format!("synth config {what}"), msg));
+        let bad =
+            |what: &str, msg: String| Err(Error::invalid(format!("synth config {what}"), msg));
         if self.gate_points < 2 {
-            return bad("gate_points", format!("{} given, need at least 2", self.gate_points));
+            return bad(
+                "gate_points",
+                format!("{} given, need at least 2", self.gate_points),
+            );
         }
         if self.field_points < 1 {
             return bad("field_points", "0 given, need at least 1".into());
@@ -135,7 +143,10 @@ impl SynthConfig {
         }
         let (a, b) = self.field_range_t;
         if !(a.is_finite() && b.is_finite() && a <= b) || (self.field_points > 1 && a == b) {
-            return bad("field_range_T", format!("({a}, {b}): need finite min < max"));
+            return bad(
+                "field_range_T",
+                format!("({a}, {b}): need finite min < max"),
+            );
         }
         if !(self.temperature_k.is_finite() && self.temperature_k > 0.0) {
             return bad("temperature_K", format!("{}: need > 0", self.temperature_k));
@@ -160,20 +171,32 @@ impl SynthConfig {
         ];
         for (flaw, name) in f.all_mut().into_iter().zip(names) {
             if !flaw.size.is_finite() || flaw.size < 0.0 {
-                return bad(&format!("flaws.{name}"), format!("{}: need a finite value ≥ 0", flaw.size));
+                return bad(
+                    &format!("flaws.{name}"),
+                    format!("{}: need a finite value ≥ 0", flaw.size),
+                );
             }
         }
         let warp = self.flaws.field_step_warp.size;
         if self.flaws.field_step_warp.on && warp >= 1.0 {
-            return bad("flaws.field_step_warp", format!("{warp}: need < 1 so the field stays monotonic"));
+            return bad(
+                "flaws.field_step_warp",
+                format!("{warp}: need < 1 so the field stays monotonic"),
+            );
         }
         let jit = self.flaws.gate_jitter_steps.size;
         if self.flaws.gate_jitter_steps.on && jit >= 1.0 {
-            return bad("flaws.gate_jitter_steps", format!("{jit}: need < 1 gate step"));
+            return bad(
+                "flaws.gate_jitter_steps",
+                format!("{jit}: need < 1 gate step"),
+            );
         }
         let keep = self.flaws.aborted_keep_fraction.size;
         if self.flaws.aborted_keep_fraction.on && !(keep > 0.0 && keep < 1.0) {
-            return bad("flaws.aborted_keep_fraction", format!("{keep}: need between 0 and 1"));
+            return bad(
+                "flaws.aborted_keep_fraction",
+                format!("{keep}: need between 0 and 1"),
+            );
         }
         Ok(())
     }

@@ -268,6 +268,9 @@ mod tests {
     fn unknown_device_lists_the_devices() {
         assert_eq!("Wren".parse::<DeviceName>().unwrap(), DeviceName::Wren);
         let e = "heron".parse::<DeviceName>().unwrap_err().to_string();
-        assert!(e.contains("heron") && e.contains("wren") && e.contains("tern"), "{e}");
+        assert!(
+            e.contains("heron") && e.contains("wren") && e.contains("tern"),
+            "{e}"
+        );
     }
 }

@@ -145,7 +145,9 @@ pub fn field_values(lo: f64, hi: f64, n: usize, warp: Option<f64>) -> Vec<f64> {
             let u = i as f64 / (n - 1) as f64;
             // u + a/(2π)·sin(2πu)·… : derivative 1 + a cos(2πu) > 0 for a < 1.
             let w = match warp {
-                Some(a) => u + a / (2.0 * std::f64::consts::PI) * (2.0 * std::f64::consts::PI * u).sin(),
+                Some(a) => {
+                    u + a / (2.0 * std::f64::consts::PI) * (2.0 * std::f64::consts::PI * u).sin()
+                }
                 None => u,
             };
             lo + (hi - lo) * w
@@ -211,7 +213,8 @@ pub fn measure(model: &Model, sch: &Schedule) -> (Vec<RawSweep>, FlawLog) {
             .map(|i| {
                 let nominal = g_lo + step * i as f64;
                 if f.gate_jitter_steps.on {
-                    nominal + f.gate_jitter_steps.size.clamp(0.0, 0.9) * step * jitter.range(-0.5, 0.5)
+                    nominal
+                        + f.gate_jitter_steps.size.clamp(0.0, 0.9) * step * jitter.range(-0.5, 0.5)
                 } else {
                     nominal
                 }
@@ -221,7 +224,8 @@ pub fn measure(model: &Model, sch: &Schedule) -> (Vec<RawSweep>, FlawLog) {
             gates.reverse();
         }
         if Some(k) == aborted {
-            let keep = ((f.aborted_keep_fraction.size.clamp(0.05, 0.95) * ng as f64).ceil() as usize)
+            let keep = ((f.aborted_keep_fraction.size.clamp(0.05, 0.95) * ng as f64).ceil()
+                as usize)
                 .clamp(2, ng - 1);
             gates.truncate(keep);
             log.aborted_sweep = Some((k, b));

@@ -84,9 +84,8 @@ impl Synthesis {
 
     /// The truth as pretty JSON text, ending in a newline.
     pub fn truth_json(&self) -> Result<String> {
-        let mut s = serde_json::to_string_pretty(&self.truth).map_err(|e| {
-            Error::invalid("truth", format!("could not be serialised: {e}"))
-        })?;
+        let mut s = serde_json::to_string_pretty(&self.truth)
+            .map_err(|e| Error::invalid("truth", format!("could not be serialised: {e}")))?;
         s.push('\n');
         Ok(s)
     }
@@ -102,7 +101,12 @@ pub fn generate(cfg: &SynthConfig) -> Result<Synthesis> {
         .field_step_warp
         .on
         .then_some(cfg.flaws.field_step_warp.size);
-    let fields = flaws::field_values(cfg.field_range_t.0, cfg.field_range_t.1, cfg.field_points, warp);
+    let fields = flaws::field_values(
+        cfg.field_range_t.0,
+        cfg.field_range_t.1,
+        cfg.field_points,
+        warp,
+    );
     let schedule = flaws::Schedule {
         gate_range_v: cfg.gate_range_v,
         gate_points: cfg.gate_points,

@@ -288,7 +288,12 @@ pub fn states_of(dev: &Device) -> Vec<SynthState> {
                 ));
             }
             // Symmetry-broken Chern states with fractional s.
-            for (t, s) in [((1, 1), (1, 2)), ((-1, 1), (-1, 2)), ((2, 1), (1, 3)), ((-2, 1), (-1, 3))] {
+            for (t, s) in [
+                ((1, 1), (1, 2)),
+                ((-1, 1), (-1, 2)),
+                ((2, 1), (1, 3)),
+                ((-2, 1), (-1, 3)),
+            ] {
                 v.push(state(
                     StateKind::BrokenSymmetry,
                     r(t.0, t.1),
@@ -298,7 +303,12 @@ pub fn states_of(dev: &Device) -> Vec<SynthState> {
                 ));
             }
             // Fractional Chern insulators with fractional t.
-            for (t, s) in [((2, 3), (1, 3)), ((1, 3), (2, 3)), ((-2, 3), (-1, 3)), ((-1, 3), (-2, 3))] {
+            for (t, s) in [
+                ((2, 3), (1, 3)),
+                ((1, 3), (2, 3)),
+                ((-2, 3), (-1, 3)),
+                ((-1, 3), (-2, 3)),
+            ] {
                 v.push(state(
                     StateKind::Fractional,
                     r(t.0, t.1),
@@ -347,15 +357,35 @@ mod tests {
             assert!(has(&wren, Rational::integer(nu), z, StateKind::Integer));
         }
         for nu in [0, 1, -1, 3, 4, -5] {
-            assert!(has(&wren, Rational::integer(nu), z, StateKind::BrokenSymmetry));
+            assert!(has(
+                &wren,
+                Rational::integer(nu),
+                z,
+                StateKind::BrokenSymmetry
+            ));
         }
         for (p, q) in [(1, 3), (2, 3), (2, 5), (4, 3), (5, 3), (-1, 3)] {
             assert!(has(&wren, r(p, q), z, StateKind::Fractional));
         }
         let tern = states_of(&Device::of(DeviceName::Tern));
-        assert!(has(&tern, Rational::integer(2), Rational::integer(4), StateKind::Wannier));
-        assert!(has(&tern, Rational::integer(-1), Rational::integer(1), StateKind::Wannier));
-        assert!(has(&tern, Rational::ONE, r(1, 2), StateKind::BrokenSymmetry));
+        assert!(has(
+            &tern,
+            Rational::integer(2),
+            Rational::integer(4),
+            StateKind::Wannier
+        ));
+        assert!(has(
+            &tern,
+            Rational::integer(-1),
+            Rational::integer(1),
+            StateKind::Wannier
+        ));
+        assert!(has(
+            &tern,
+            Rational::ONE,
+            r(1, 2),
+            StateKind::BrokenSymmetry
+        ));
         assert!(has(&tern, r(1, 3), r(2, 3), StateKind::Fractional));
         // No state appears twice.
         for (i, a) in tern.iter().enumerate() {

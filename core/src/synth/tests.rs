@@ -63,8 +63,7 @@ fn isolated_integer_states(s: &Synthesis, b: f64, gap: f64) -> Vec<usize> {
                 && (s.truth.config.gate_range_v.0..=s.truth.config.gate_range_v.1).contains(&vg)
                 && visible.iter().all(|&k| {
                     k == j
-                        || (m.line_density(k, b) - m.line_density(j, b)).abs()
-                            > gap * e_over_h * b
+                        || (m.line_density(k, b) - m.line_density(j, b)).abs() > gap * e_over_h * b
                 })
         })
         .collect()
@@ -77,7 +76,11 @@ fn ideal_has_quantised_plateaus_and_minima_at_the_truth_states() {
         let m = &s.model;
         let e_over_h = crate::constants::E_OVER_H;
         let checked = isolated_integer_states(&s, b, 0.6);
-        assert!(checked.len() >= 4, "{device}: only {} isolated states", checked.len());
+        assert!(
+            checked.len() >= 4,
+            "{device}: only {} isolated states",
+            checked.len()
+        );
         for j in checked {
             let t = m.states[j].t.to_f64();
             let n = m.line_density(j, b);
@@ -99,14 +102,28 @@ fn ideal_has_quantised_plateaus_and_minima_at_the_truth_states() {
                 .collect();
             let max = window.iter().cloned().fold(0.0, f64::max);
             // Local minimum: nothing lower within ±0.6 in filling factor.
-            let min = window[70..=130].iter().cloned().fold(f64::INFINITY, f64::min);
-            assert!(rxx <= min * 1.01 + 0.01, "{device} {}: {rxx} > {min}", s.truth.states[j].label);
-            assert!(rxx < 0.05 * max, "{device} {}: dip {rxx} vs {max}", s.truth.states[j].label);
+            let min = window[70..=130]
+                .iter()
+                .cloned()
+                .fold(f64::INFINITY, f64::min);
+            assert!(
+                rxx <= min * 1.01 + 0.01,
+                "{device} {}: {rxx} > {min}",
+                s.truth.states[j].label
+            );
+            assert!(
+                rxx < 0.05 * max,
+                "{device} {}: dip {rxx} vs {max}",
+                s.truth.states[j].label
+            );
         }
     }
     // The ν = 2 plateau of wren at 14 T equals R_K/2 = 12 906.403 729 65 Ω (check-values §1).
     let s = generate(&quiet(DeviceName::Wren)).unwrap();
-    let vg = s.model.device.gate_for_density(2.0 * crate::constants::E_OVER_H * 14.0);
+    let vg = s
+        .model
+        .device
+        .gate_for_density(2.0 * crate::constants::E_OVER_H * 14.0);
     let (_, rxy) = s.ideal(vg, 14.0);
     assert!((rxy - 12_906.403_729_65).abs() < 1.0, "{rxy}");
 }
@@ -146,10 +163,17 @@ fn flaws_are_present_when_switched_on_and_absent_when_off() {
     let (k, b) = log.aborted_sweep.unwrap();
     assert_eq!(sw[k].step_value, b);
     assert!(sw[k].swept.len() < cfg.gate_points);
-    assert!(sw.iter().filter(|x| x.swept.len() == cfg.gate_points).count() >= sw.len() - 1);
+    assert!(
+        sw.iter()
+            .filter(|x| x.swept.len() == cfg.gate_points)
+            .count()
+            >= sw.len() - 1
+    );
     let (k, start, len) = log.nan_stretch.unwrap();
     assert_eq!(len, 12);
-    assert!(sw[k].values[0][start..start + len].iter().all(|v| v.is_nan()));
+    assert!(sw[k].values[0][start..start + len]
+        .iter()
+        .all(|v| v.is_nan()));
     let nan_total: usize = sw
         .iter()
         .map(|x| x.values[0].iter().filter(|v| v.is_nan()).count())
@@ -175,7 +199,11 @@ fn flaws_are_present_when_switched_on_and_absent_when_off() {
         .sweeps
         .iter()
         .all(|x| x.values.iter().flatten().all(|v| v.is_finite())));
-    let st: Vec<f64> = q.sweeps.windows(2).map(|w| w[1].step_value - w[0].step_value).collect();
+    let st: Vec<f64> = q
+        .sweeps
+        .windows(2)
+        .map(|w| w[1].step_value - w[0].step_value)
+        .collect();
     assert!(st.iter().all(|d| (d - st[0]).abs() < 1e-12));
     assert_eq!(q.truth.flaws_applied, FlawLog::default());
     // Without flaws the sweeps are exactly the ideal model.
@@ -190,7 +218,11 @@ fn single_flaws_act_as_described() {
     let mut c = quiet(DeviceName::Wren);
     c.flaws.hysteresis_v = Flaw::on(0.5);
     let s = generate(&c).unwrap();
-    let down = s.sweeps.iter().find(|x| x.direction == SweepDirection::Down).unwrap();
+    let down = s
+        .sweeps
+        .iter()
+        .find(|x| x.direction == SweepDirection::Down)
+        .unwrap();
     assert!(down.swept.windows(2).all(|w| w[1] < w[0]));
     let mut shifted = false;
     for (i, &vg) in down.swept.iter().enumerate() {
@@ -230,14 +262,22 @@ fn brown_zak_fields_equal_fractions_of_one_flux_quantum_per_cell() {
     let t = &s.truth;
     let lambda_m = t.lambda_nm.unwrap() * 1e-9;
     let area = 0.75f64.sqrt() * lambda_m * lambda_m;
-    let bz: Vec<_> = t.states.iter().filter(|x| x.kind == StateKind::BrownZak).collect();
+    let bz: Vec<_> = t
+        .states
+        .iter()
+        .filter(|x| x.kind == StateKind::BrownZak)
+        .collect();
     assert!(bz.len() >= 3);
     for x in bz {
         let q = x.phi_over_phi0.unwrap();
         assert_eq!(q.numer(), 1);
         // B = (1/q)·φ₀/A with φ₀ = h/e (check-values §5; pitfall §14.1: not h/2e).
         let want = PHI0_WB / area / q.denom() as f64;
-        assert!((x.b_t.unwrap() / want - 1.0).abs() < 1e-6, "{} vs {want}", x.b_t.unwrap());
+        assert!(
+            (x.b_t.unwrap() / want - 1.0).abs() < 1e-6,
+            "{} vs {want}",
+            x.b_t.unwrap()
+        );
         assert_eq!(x.visible, want <= t.config.field_range_t.1);
     }
     // n₀ = 1/A and one flux per cell are consistent with λ.
@@ -309,13 +349,22 @@ fn varied_configs_differ_and_generate() {
 fn bad_configs_are_refused_with_the_field_named() {
     let mut c = SynthConfig::demo(DeviceName::Wren);
     c.gate_points = 1;
-    assert!(generate(&c).unwrap_err().to_string().contains("gate_points"));
+    assert!(generate(&c)
+        .unwrap_err()
+        .to_string()
+        .contains("gate_points"));
     let mut c = SynthConfig::demo(DeviceName::Wren);
     c.field_range_t = (5.0, 1.0);
-    assert!(generate(&c).unwrap_err().to_string().contains("field_range_T"));
+    assert!(generate(&c)
+        .unwrap_err()
+        .to_string()
+        .contains("field_range_T"));
     let mut c = SynthConfig::demo(DeviceName::Wren);
     c.flaws.field_step_warp = Flaw::on(1.5);
-    assert!(generate(&c).unwrap_err().to_string().contains("field_step_warp"));
+    assert!(generate(&c)
+        .unwrap_err()
+        .to_string()
+        .contains("field_step_warp"));
     assert_eq!(
         truth_path_for(Path::new("demo-data/wren.csv")),
         PathBuf::from("demo-data/wren.truth.json")
