@@ -29,6 +29,10 @@ enum Command {
     Lines(cmd::lines::Args),
     /// List the built-in heat-map palettes and overlay colours, or write them as files.
     Palettes(cmd::palettes::Args),
+    /// Calibrate the gate from the data: Hall slope, quantum Hall fan and geometry.
+    Calibrate(cmd::calibrate::Args),
+    /// Find and index every gap: states with (t, s), score, onset and Hall check.
+    Index(cmd::index::Args),
 }
 
 fn main() -> ExitCode {
@@ -39,6 +43,8 @@ fn main() -> ExitCode {
         Command::Demo(a) => cmd::demo::run(a),
         Command::Lines(a) => cmd::lines::run(a),
         Command::Palettes(a) => cmd::palettes::run(a),
+        Command::Calibrate(a) => cmd::calibrate::run(a),
+        Command::Index(a) => cmd::index::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

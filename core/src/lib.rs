@@ -28,6 +28,7 @@ pub mod families;
 pub mod filling;
 pub mod gate;
 pub mod hofstadter;
+pub mod index;
 pub mod line;
 pub mod moire;
 pub mod savgol;

@@ -1,0 +1,597 @@
+//! Feature maps: the gap-strength map g on the map's grid, the R_xx minima along the gate axis
+//! of every field row, the Hall plateau segments, and a k-d tree of the minima.
+//!
+//! Gap strength per field row: L = ln R_xx (floored at the noise level of R_xx near zero), a
+//! smooth upper background of L from a wide running quantile, and
+//! g = (background − L)/σ_row, where σ_row is a robust (median absolute deviation) noise of the
+//! second-difference residual of L. g is dimensionless (standard deviations of the row noise):
+//! large where R_xx has a deep minimum, ≈ 0 on the background, and the huge dynamic range of
+//! R_xx (from mΩ in a gap to kΩ between) is compressed by the logarithm. Where R_xy exists, the
+//! same is done with ln σ_xx and the larger of the two strengths is kept: every gap is a σ_xx
+//! minimum, while an insulating gap with σ_xy = 0 (ν = 0) is an R_xx maximum.
+
+use crate::conductivity::sigma_from_rho;
+use crate::constants::E2_OVER_H;
+use crate::error::{Error, Result};
+use crate::map::{ChannelKind, Map, Quantity};
+use kdtree::distance::squared_euclidean;
+use kdtree::KdTree;
+use ndarray::{Array2, Axis as NdAxis};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// Options of the gap-strength map.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct GapMapOptions {
+    /// Width of the running background window as a fraction of the row length.
+    pub background_fraction: f64,
+    /// Quantile of L taken as the background (0.5 = median; higher follows the upper envelope,
+    /// which stays on the background where gaps fill much of a row).
+    pub background_quantile: f64,
+    /// Smallest row noise in units of ln R (relative noise), so noiseless data stays finite.
+    pub min_row_noise: f64,
+    /// Largest |g| kept (g is clipped to ±this).
+    pub clip: f64,
+}
+
+impl Default for GapMapOptions {
+    fn default() -> Self {
+        GapMapOptions {
+            background_fraction: 0.12,
+            background_quantile: 0.75,
+            min_row_noise: 1e-3,
+            clip: 200.0,
+        }
+    }
+}
+
+/// The gap-strength map and what it was built from.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GapMap {
+    /// g on the map grid (rows = field, columns = gate), in row-noise units; NaN where R_xx was
+    /// not measured.
+    pub g: Array2<f64>,
+    /// Robust noise σ_row of ln R_xx per row (relative noise, dimensionless).
+    pub row_noise: Vec<f64>,
+    /// Floor applied to R_xx before the logarithm, Ω.
+    pub floor_ohm: f64,
+    /// True when ln σ_xx (from R_xx and R_xy) was combined in.
+    pub used_sigma_xx: bool,
+    /// Fraction of R_xy found mixed into R_xx and subtracted before the logarithm.
+    pub misalignment: f64,
+}
+
+fn quantile_sorted(v: &[f64], q: f64) -> f64 {
+    if v.is_empty() {
+        return f64::NAN;
+    }
+    let pos = q * (v.len() - 1) as f64;
+    let i = pos.floor() as usize;
+    let f = pos - i as f64;
+    if i + 1 < v.len() {
+        v[i] * (1.0 - f) + v[i + 1] * f
+    } else {
+        v[i]
+    }
+}
+
+/// Median of the finite values (NaN when none).
+pub(crate) fn median(values: impl IntoIterator<Item = f64>) -> f64 {
+    let mut v: Vec<f64> = values.into_iter().filter(|x| x.is_finite()).collect();
+    v.sort_by(f64::total_cmp);
+    quantile_sorted(&v, 0.5)
+}
+
+/// Robust standard deviation 1.4826·MAD of the finite values (NaN when none).
+pub(crate) fn robust_sigma(values: impl IntoIterator<Item = f64>) -> f64 {
+    let v: Vec<f64> = values.into_iter().filter(|x| x.is_finite()).collect();
+    let m = median(v.iter().copied());
+    1.4826 * median(v.iter().map(|x| (x - m).abs()))
+}
+
+/// Running `q`-quantile of `row` over a window of `w` points, evaluated every `w/4` points and
+/// interpolated linearly in between (NaN entries are skipped).
+fn running_quantile(row: &[f64], w: usize, q: f64) -> Vec<f64> {
+    let n = row.len();
+    let hop = (w / 4).max(1);
+    let half = w / 2;
+    let mut knots: Vec<(usize, f64)> = Vec::new();
+    let mut buf = Vec::with_capacity(w + 1);
+    let mut c: usize = 0;
+    loop {
+        let lo = c.saturating_sub(half);
+        let hi = (c + half + 1).min(n);
+        buf.clear();
+        buf.extend(row[lo..hi].iter().copied().filter(|x| x.is_finite()));
+        if !buf.is_empty() {
+            buf.sort_by(f64::total_cmp);
+            knots.push((c, quantile_sorted(&buf, q)));
+        }
+        if c + 1 >= n {
+            break;
+        }
+        c = (c + hop).min(n - 1);
+    }
+    let mut out = vec![f64::NAN; n];
+    if knots.is_empty() {
+        return out;
+    }
+    for (j, o) in out.iter_mut().enumerate() {
+        let k = knots.partition_point(|&(c, _)| c <= j);
+        *o = if k == 0 {
+            knots[0].1
+        } else if k == knots.len() {
+            knots[k - 1].1
+        } else {
+            let (c0, v0) = knots[k - 1];
+            let (c1, v1) = knots[k];
+            v0 + (v1 - v0) * (j - c0) as f64 / (c1 - c0) as f64
+        };
+    }
+    out
+}
+
+/// g of one row of L (ln of a positive quantity that dips in a gap).
+fn strength_row(l: &[f64], opts: &GapMapOptions) -> (Vec<f64>, f64) {
+    let n = l.len();
+    let w = ((opts.background_fraction * n as f64) as usize).max(9);
+    let bg = running_quantile(l, w, opts.background_quantile);
+    let resid = (1..n.saturating_sub(1)).map(|i| l[i] - 0.5 * (l[i - 1] + l[i + 1]));
+    // Second differences of white noise have σ·√(3/2).
+    let sigma = (robust_sigma(resid) / 1.5f64.sqrt()).max(opts.min_row_noise);
+    let sigma = if sigma.is_finite() {
+        sigma
+    } else {
+        opts.min_row_noise
+    };
+    let g = (0..n)
+        .map(|i| ((bg[i] - l[i]) / sigma).clamp(-opts.clip, opts.clip))
+        .collect();
+    (g, sigma)
+}
+
+/// Noise floor of R_xx near zero (Ω): the robust scatter of second differences among the 10 %
+/// smallest |R_xx|, times 3; at least 10⁻⁹ of the largest |R_xx|.
+fn rxx_floor(rxx: &Array2<f64>) -> f64 {
+    let mut abs: Vec<f64> = rxx
+        .iter()
+        .filter(|v| v.is_finite())
+        .map(|v| v.abs())
+        .collect();
+    if abs.is_empty() {
+        return 1e-9;
+    }
+    abs.sort_by(f64::total_cmp);
+    let cut = quantile_sorted(&abs, 0.1);
+    let max = abs[abs.len() - 1];
+    let mut diffs = Vec::new();
+    for row in rxx.axis_iter(NdAxis(0)) {
+        let r = row
+            .as_slice()
+            .map(|s| s.to_vec())
+            .unwrap_or_else(|| row.to_vec());
+        for i in 1..r.len().saturating_sub(1) {
+            if r[i].abs() <= cut && r[i - 1].abs() <= cut && r[i + 1].abs() <= cut {
+                diffs.push(r[i] - 0.5 * (r[i - 1] + r[i + 1]));
+            }
+        }
+    }
+    let s = robust_sigma(diffs) / 1.5f64.sqrt();
+    let floor = 3.0 * if s.is_finite() { s } else { 0.0 };
+    let typical = quantile_sorted(&abs, 0.5);
+    floor.max(5e-3 * typical).max(1e-9 * max).max(1e-12)
+}
+
+/// Inside a run of floored points (a gap deeper than the noise) g is set to its largest value
+/// over the run, so the run is one flat-topped feature whose centre is the gap's centre.
+fn flatten_floored_runs(g: &mut [f64], l: &[f64], ln_floor: f64) {
+    let n = g.len();
+    let mut j = 0;
+    while j < n {
+        if l[j] == ln_floor {
+            let mut k = j;
+            while k + 1 < n && l[k + 1] == ln_floor {
+                k += 1;
+            }
+            let m = g[j..=k].iter().copied().fold(f64::NEG_INFINITY, f64::max);
+            g[j..=k].iter_mut().for_each(|v| *v = m);
+            j = k + 1;
+        } else {
+            j += 1;
+        }
+    }
+}
+
+/// Fraction f of R_xy mixed into R_xx by misaligned contacts, R_xx,measured = R_xx + f·R_xy,
+/// estimated from the Hall plateaus: where R_xy is flat and large the true R_xx vanishes, so the
+/// ratio R_xx/R_xy clusters at f. Returns 0 when there is too little plateau to tell.
+pub fn misalignment_fraction(rxx: &Array2<f64>, rxy: &Array2<f64>) -> f64 {
+    let (rows, cols) = rxx.dim();
+    let typical = median(rxy.iter().map(|v| v.abs()));
+    if !(typical > 0.0) {
+        return 0.0;
+    }
+    let mut ratios = Vec::new();
+    for i in 0..rows {
+        for j in 1..cols.saturating_sub(1) {
+            let (a, b, c) = (rxy[[i, j - 1]], rxy[[i, j]], rxy[[i, j + 1]]);
+            let r = rxx[[i, j]];
+            if !(a.is_finite() && b.is_finite() && c.is_finite() && r.is_finite()) {
+                continue;
+            }
+            let flat = (a - b).abs() < 0.005 * b.abs() && (c - b).abs() < 0.005 * b.abs();
+            if flat && b.abs() > 0.2 * typical {
+                let q = r / b;
+                if q.abs() < 0.05 {
+                    ratios.push(q);
+                }
+            }
+        }
+    }
+    if ratios.len() < 20 {
+        return 0.0;
+    }
+    // Mode of the ratios: densest window of width 0.001.
+    ratios.sort_by(f64::total_cmp);
+    let w = 1e-3;
+    let (mut best, mut best_n, mut k) = (0.0, 0usize, 0usize);
+    for i in 0..ratios.len() {
+        while ratios[i] - ratios[k] > w {
+            k += 1;
+        }
+        if i + 1 - k > best_n {
+            best_n = i + 1 - k;
+            best = median(ratios[k..=i].iter().copied());
+        }
+    }
+    if best_n * 20 < ratios.len() {
+        0.0
+    } else {
+        best
+    }
+}
+
+/// Check the map has a gate-like x axis and a field y axis.
+pub(crate) fn check_axes(map: &Map) -> Result<()> {
+    if map.y().quantity != Quantity::Field {
+        return Err(Error::MapRequirement(format!(
+            "indexing needs the magnetic field on the row axis; the rows are `{}` ({:?})",
+            map.y().name,
+            map.y().quantity
+        )));
+    }
+    if !matches!(
+        map.x().quantity,
+        Quantity::Gate | Quantity::BottomGate | Quantity::TopGate
+    ) {
+        return Err(Error::MapRequirement(format!(
+            "indexing needs a single gate voltage on the column axis; the columns are `{}` ({:?})",
+            map.x().name,
+            map.x().quantity
+        )));
+    }
+    let (rows, cols) = map.shape();
+    if rows < 3 || cols < 16 {
+        return Err(Error::MapRequirement(format!(
+            "indexing needs at least 3 field rows and 16 gate points; the map has {rows} × {cols}"
+        )));
+    }
+    Ok(())
+}
+
+/// Build the gap-strength map of `map` (needs an R_xx channel; uses R_xy when present).
+pub fn gap_map(map: &Map, opts: &GapMapOptions) -> Result<GapMap> {
+    check_axes(map)?;
+    let raw = &map.require(ChannelKind::Rxx)?.data;
+    let rxy = map.channel_of(ChannelKind::Rxy).map(|c| &c.data);
+    let mix = rxy.map_or(0.0, |xy| misalignment_fraction(raw, xy));
+    let corrected;
+    let rxx = match rxy {
+        Some(xy) if mix != 0.0 => {
+            corrected = ndarray::Zip::from(raw)
+                .and(xy)
+                .map_collect(|&r, &h| r - mix * h);
+            &corrected
+        }
+        _ => raw,
+    };
+    let floor = rxx_floor(rxx);
+    let (rows, cols) = map.shape();
+    let mut g = Array2::from_elem((rows, cols), f64::NAN);
+    let mut noise = vec![0.0; rows];
+    g.axis_iter_mut(NdAxis(0))
+        .into_par_iter()
+        .zip(noise.par_iter_mut())
+        .enumerate()
+        .for_each(|(i, (mut grow, nz))| {
+            let lr: Vec<f64> = (0..cols)
+                .map(|j| {
+                    let r = rxx[[i, j]];
+                    if r.is_finite() {
+                        r.max(floor).ln()
+                    } else {
+                        f64::NAN
+                    }
+                })
+                .collect();
+            let (gr, sr) = strength_row(&lr, opts);
+            *nz = sr;
+            let combined: Vec<f64> = match rxy {
+                Some(xy) => {
+                    let ls: Vec<f64> = (0..cols)
+                        .map(|j| {
+                            let (r, h) = (rxx[[i, j]], xy[[i, j]]);
+                            if r.is_finite() && h.is_finite() {
+                                let (sxx, _) = sigma_from_rho(r.max(floor), h);
+                                (sxx / E2_OVER_H).max(1e-300).ln()
+                            } else {
+                                f64::NAN
+                            }
+                        })
+                        .collect();
+                    let (gs, _) = strength_row(&ls, opts);
+                    gr.iter()
+                        .zip(&gs)
+                        .map(|(a, b)| if b.is_finite() { a.max(*b) } else { *a })
+                        .collect()
+                }
+                None => gr,
+            };
+            let mut combined = combined;
+            flatten_floored_runs(&mut combined, &lr, floor.ln());
+            for (j, v) in combined.into_iter().enumerate() {
+                grow[j] = if lr[j].is_finite() { v } else { f64::NAN };
+            }
+        });
+    Ok(GapMap {
+        g,
+        row_noise: noise,
+        floor_ohm: floor,
+        used_sigma_xx: rxy.is_some(),
+        misalignment: mix,
+    })
+}
+
+/// A local minimum of R_xx along the gate axis in one field row.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct MinimumPoint {
+    /// Row index (field).
+    pub row: usize,
+    /// Fractional column index of the minimum (centre of a flat bottom).
+    pub col: f64,
+    /// Gate voltage of the minimum, V.
+    pub gate_v: f64,
+    /// Field of the row, T.
+    pub field_t: f64,
+    /// Gap strength g at the minimum (row-noise units).
+    pub strength: f64,
+    /// Prominence in g units: height above the higher of the two bases.
+    pub prominence: f64,
+    /// Full width at half prominence along the gate axis, V.
+    pub width_v: f64,
+}
+
+/// Local maxima of g along each row with prominence ≥ `min_prominence` (row-noise units).
+pub fn find_minima(map: &Map, gap: &GapMap, min_prominence: f64) -> Vec<MinimumPoint> {
+    let x = map.x();
+    let y = map.y().values();
+    let (rows, cols) = gap.g.dim();
+    let step = (x.max() - x.min()) / (cols.max(2) - 1) as f64;
+    (0..rows)
+        .into_par_iter()
+        .flat_map_iter(|i| {
+            let row: Vec<f64> = gap.g.row(i).iter().copied().collect();
+            let mut out = Vec::new();
+            let mut j = 1;
+            while j + 1 < cols {
+                let v = row[j];
+                if !v.is_finite() || !(v > row[j - 1]) {
+                    j += 1;
+                    continue;
+                }
+                // Flat tops: extend while equal.
+                let mut k = j;
+                while k + 1 < cols && row[k + 1] == v {
+                    k += 1;
+                }
+                if k + 1 >= cols || !(v > row[k + 1]) {
+                    j = k + 1;
+                    continue;
+                }
+                // Bases: lowest value before a higher point on each side.
+                let mut lb = v;
+                let mut a = j;
+                while a > 0 {
+                    a -= 1;
+                    let u = row[a];
+                    if !u.is_finite() || u > v {
+                        break;
+                    }
+                    lb = lb.min(u);
+                }
+                let mut rb = v;
+                let mut b = k;
+                while b + 1 < cols {
+                    b += 1;
+                    let u = row[b];
+                    if !u.is_finite() || u > v {
+                        break;
+                    }
+                    rb = rb.min(u);
+                }
+                let prom = v - lb.max(rb);
+                if prom >= min_prominence {
+                    let half = v - 0.5 * prom;
+                    let mut l = j as f64;
+                    let mut p = j;
+                    while p > 0 && row[p - 1].is_finite() && row[p - 1] > half {
+                        p -= 1;
+                    }
+                    if p > 0 && row[p - 1].is_finite() {
+                        l = p as f64 - (row[p] - half) / (row[p] - row[p - 1]);
+                    } else if p == 0 {
+                        l = 0.0;
+                    }
+                    let mut r = k as f64;
+                    let mut q = k;
+                    while q + 1 < cols && row[q + 1].is_finite() && row[q + 1] > half {
+                        q += 1;
+                    }
+                    if q + 1 < cols && row[q + 1].is_finite() {
+                        r = q as f64 + (row[q] - half) / (row[q] - row[q + 1]);
+                    }
+                    let c = 0.5 * (j + k) as f64;
+                    out.push(MinimumPoint {
+                        row: i,
+                        col: c,
+                        gate_v: x.value_at(c).unwrap_or(f64::NAN),
+                        field_t: y[i],
+                        strength: v,
+                        prominence: prom,
+                        width_v: ((r - l).max(1.0)) * step,
+                    });
+                }
+                j = k + 1;
+            }
+            out.into_iter()
+        })
+        .collect()
+}
+
+/// A Hall plateau segment along the gate axis in one field row.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct PlateauSegment {
+    /// Row index.
+    pub row: usize,
+    /// Field, T.
+    pub field_t: f64,
+    /// First and last gate voltage of the flat run, V.
+    pub gate_range_v: (f64, f64),
+    /// Median Hall conductivity over the run in e²/h, with the map's sign convention
+    /// σ_xy = −ρ_xy/(ρ_xx²+ρ_xy²).
+    pub sigma_xy_e2h: f64,
+}
+
+/// Hall conductivity σ_xy in e²/h on the map grid (R_xx taken as ρ_xx: one square), or None
+/// without R_xy.
+pub fn sigma_xy_e2h(map: &Map) -> Option<Array2<f64>> {
+    let rxx = &map.channel_of(ChannelKind::Rxx)?.data;
+    let rxy = &map.channel_of(ChannelKind::Rxy)?.data;
+    Some(ndarray::Zip::from(rxx).and(rxy).map_collect(|&r, &h| {
+        let (_, sxy) = sigma_from_rho(r, h);
+        sxy / E2_OVER_H
+    }))
+}
+
+/// Runs of at least `min_len` gate points along which σ_xy changes by less than `tol` e²/h per
+/// point (a Hall plateau, where |dσ_xy/dn| is small).
+pub fn find_plateaus(
+    map: &Map,
+    sxy: &Array2<f64>,
+    tol: f64,
+    min_len: usize,
+) -> Vec<PlateauSegment> {
+    let x = map.x().values();
+    let y = map.y().values();
+    let (rows, cols) = sxy.dim();
+    (0..rows)
+        .into_par_iter()
+        .flat_map_iter(|i| {
+            let row: Vec<f64> = sxy.row(i).iter().copied().collect();
+            let mut out = Vec::new();
+            let mut start = 0;
+            for j in 1..=cols {
+                let flat = j < cols
+                    && row[j].is_finite()
+                    && row[j - 1].is_finite()
+                    && (row[j] - row[j - 1]).abs() < tol;
+                if !flat {
+                    if j - start >= min_len {
+                        out.push(PlateauSegment {
+                            row: i,
+                            field_t: y[i],
+                            gate_range_v: (x[start], x[j - 1]),
+                            sigma_xy_e2h: median(row[start..j].iter().copied()),
+                        });
+                    }
+                    start = j;
+                }
+            }
+            out.into_iter()
+        })
+        .collect()
+}
+
+/// A k-d tree over feature points in normalised (gate, field) coordinates, for nearest-feature
+/// queries (snapping).
+pub struct FeatureIndex {
+    tree: KdTree<f64, usize, [f64; 2]>,
+    scale: (f64, f64),
+    points: Vec<MinimumPoint>,
+}
+
+impl std::fmt::Debug for FeatureIndex {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "FeatureIndex({} points)", self.points.len())
+    }
+}
+
+impl FeatureIndex {
+    /// Index `points`; distances are measured with the gate axis divided by `gate_span_v` and
+    /// the field by `field_span_t` (both > 0). Points with non-finite coordinates are skipped.
+    pub fn new(points: Vec<MinimumPoint>, gate_span_v: f64, field_span_t: f64) -> Result<Self> {
+        if !(gate_span_v > 0.0 && field_span_t > 0.0) {
+            return Err(Error::invalid(
+                "feature index scale",
+                format!("spans {gate_span_v} V, {field_span_t} T: expected positive spans"),
+            ));
+        }
+        let points: Vec<MinimumPoint> = points
+            .into_iter()
+            .filter(|p| p.gate_v.is_finite() && p.field_t.is_finite())
+            .collect();
+        let mut tree = KdTree::with_capacity(2, 64);
+        for (k, p) in points.iter().enumerate() {
+            tree.add([p.gate_v / gate_span_v, p.field_t / field_span_t], k)
+                .map_err(|e| Error::invalid("feature point", format!("{e:?}")))?;
+        }
+        Ok(FeatureIndex {
+            tree,
+            scale: (gate_span_v, field_span_t),
+            points,
+        })
+    }
+
+    /// The indexed points.
+    pub fn points(&self) -> &[MinimumPoint] {
+        &self.points
+    }
+
+    /// Up to `k` nearest points to (gate V, field T), nearest first, with their normalised
+    /// distance. Errors on a non-finite query.
+    pub fn nearest(
+        &self,
+        gate_v: f64,
+        field_t: f64,
+        k: usize,
+    ) -> Result<Vec<(f64, &MinimumPoint)>> {
+        if !(gate_v.is_finite() && field_t.is_finite()) {
+            return Err(Error::invalid(
+                "nearest-feature query",
+                format!("({gate_v} V, {field_t} T): expected finite coordinates"),
+            ));
+        }
+        if self.points.is_empty() {
+            return Ok(Vec::new());
+        }
+        let q = [gate_v / self.scale.0, field_t / self.scale.1];
+        let found = self
+            .tree
+            .nearest(&q, k, &squared_euclidean)
+            .map_err(|e| Error::invalid("nearest-feature query", format!("{e:?}")))?;
+        Ok(found
+            .into_iter()
+            .map(|(d2, &i)| (d2.sqrt(), &self.points[i]))
+            .collect())
+    }
+}

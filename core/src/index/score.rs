@@ -1,0 +1,380 @@
+//! Line scoring: a matched filter (the discrete Radon transform along a candidate line) of the
+//! gap-strength map, the field range where the line is seen, and suppression of neighbours
+//! that explain the same ridge.
+//!
+//! For candidate (t, s) the line n(B) = t(e/h)B + s·n₀ is followed row by row through the map
+//! in (V_g, B) with the gate model V = V_CNP + n/α. In each row the contrast is
+//! c = g(line) − ½[g(line − δ) + g(line + δ)], maximised over side offsets δ from 1.5 columns
+//! up to half the distance to the nearest candidate line of no greater complexity (so a complex
+//! candidate lying inside the broad plateau of a simpler state has no contrast). The contrast is
+//! smoothed over a few rows; the line is seen over the longest run of rows where the smoothed
+//! contrast exceeds the threshold, its lowest field is the onset, and the score is the mean
+//! contrast over that run (row-noise units) with a t-statistic against its row-to-row scatter.
+
+use crate::constants::E_OVER_H;
+use crate::gate::SingleGate;
+use crate::line::{Family, Line};
+use crate::map::Map;
+use crate::rational::Rational;
+use ndarray::Array2;
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// Thresholds of the line detector.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ScoreOptions {
+    /// Smoothed row contrast a row must exceed to count as seen (row-noise units).
+    pub row_threshold: f64,
+    /// Smallest mean contrast over the seen run for a detection.
+    pub min_score: f64,
+    /// Smallest t-statistic of the mean contrast.
+    pub min_t: f64,
+    /// Smallest number of rows in the seen run (also at least 4 % of the rows).
+    pub min_rows: usize,
+    /// Two detections closer than this many columns on average over their common rows explain
+    /// the same ridge.
+    pub merge_columns: f64,
+}
+
+impl Default for ScoreOptions {
+    fn default() -> Self {
+        ScoreOptions {
+            row_threshold: 3.0,
+            min_score: 4.0,
+            min_t: 3.5,
+            min_rows: 4,
+            merge_columns: 1.6,
+        }
+    }
+}
+
+/// A candidate line with the complexity used to rank it against neighbours.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Candidate {
+    /// The predicted line.
+    pub line: Line,
+    /// Slope t (e/h) and intercept s (n₀).
+    pub t: Rational,
+    /// Intercept in carriers per moiré cell.
+    pub s: Rational,
+    /// Complexity ≥ 1: grows with the denominators, with |t|, and from the degenerate sequence
+    /// to symmetry-broken, fractional and Wannier families.
+    pub complexity: f64,
+}
+
+/// Complexity of a (t, s) line of `family`.
+pub fn complexity(family: Family, t: Rational, s: Rational) -> f64 {
+    let base = match family {
+        Family::Integer => 1.0,
+        Family::BrokenSymmetry => 2.0,
+        Family::CompositeFermion => 2.5,
+        Family::Satellite => 2.0,
+        Family::Wannier => 2.5,
+        Family::BrownZak => 3.0,
+    };
+    base + (t.denom() - 1) as f64 + (s.denom() - 1) as f64 + 0.02 * t.abs().to_f64()
+}
+
+impl Candidate {
+    /// A candidate from a gap line (None for a Brown–Zak field line).
+    pub fn from_line(line: Line) -> Option<Candidate> {
+        let (t, s) = line.ts()?;
+        let c = complexity(line.family, t, s);
+        Some(Candidate {
+            line,
+            t,
+            s,
+            complexity: c,
+        })
+    }
+}
+
+/// The evidence for one candidate line.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct LineEvidence {
+    /// Index of the candidate in the list scored.
+    pub candidate: usize,
+    /// Mean contrast over the rows where the line is seen (row-noise units); 0 if never seen.
+    pub score: f64,
+    /// t-statistic of that mean against the row-to-row scatter.
+    pub t_stat: f64,
+    /// Lowest field of the seen run, T.
+    pub b_onset_t: Option<f64>,
+    /// Highest field of the seen run, T.
+    pub b_max_t: Option<f64>,
+    /// Rows in the seen run.
+    pub rows_seen: usize,
+    /// Rows where the line lies inside the map.
+    pub rows_inside: usize,
+}
+
+/// Fractional column of density `n` (m⁻²) on the map's gate axis, or None outside.
+fn column_of(map: &Map, gate: &SingleGate, n: f64) -> Option<f64> {
+    map.x().fractional_index(gate.gate_for_density(n))
+}
+
+fn sample(row: &[f64], f: f64) -> f64 {
+    if !(f >= 0.0) {
+        return f64::NAN;
+    }
+    let i = f.floor() as usize;
+    if i + 1 >= row.len() {
+        return if i + 1 == row.len() && f == i as f64 {
+            row[i]
+        } else {
+            f64::NAN
+        };
+    }
+    let w = f - i as f64;
+    row[i] * (1.0 - w) + row[i + 1] * w
+}
+
+/// Columns of every candidate in every row (NaN outside the map).
+fn positions(map: &Map, gate: &SingleGate, n0: Option<f64>, cands: &[Candidate]) -> Array2<f64> {
+    let b = map.y().values();
+    let mut pos = Array2::from_elem((b.len(), cands.len()), f64::NAN);
+    pos.outer_iter_mut()
+        .into_par_iter()
+        .enumerate()
+        .for_each(|(i, mut row)| {
+            for (k, c) in cands.iter().enumerate() {
+                let moire = if c.s.is_zero() {
+                    Some(0.0)
+                } else {
+                    n0.map(|n0| c.s.to_f64() * n0)
+                };
+                if let Some(m) = moire {
+                    let n = c.t.to_f64() * E_OVER_H * b[i] + m;
+                    if let Some(f) = column_of(map, gate, n) {
+                        row[k] = f;
+                    }
+                }
+            }
+        });
+    pos
+}
+
+/// Score every candidate on the gap-strength map `g` of `map` (same grid).
+pub fn score_lines(
+    map: &Map,
+    g: &Array2<f64>,
+    gate: &SingleGate,
+    n0_m2: Option<f64>,
+    cands: &[Candidate],
+    opts: &ScoreOptions,
+) -> Vec<LineEvidence> {
+    let (rows, cols) = g.dim();
+    let pos = positions(map, gate, n0_m2, cands);
+    // Per row: the largest side offset of each candidate (half the distance to the nearest
+    // candidate of no greater complexity).
+    let mut dmax = Array2::from_elem((rows, cands.len()), f64::NAN);
+    dmax.outer_iter_mut()
+        .into_par_iter()
+        .enumerate()
+        .for_each(|(i, mut out)| {
+            let mut order: Vec<usize> = (0..cands.len())
+                .filter(|&k| pos[[i, k]].is_finite())
+                .collect();
+            order.sort_by(|&a, &b| pos[[i, a]].total_cmp(&pos[[i, b]]));
+            for (r, &k) in order.iter().enumerate() {
+                let ck = cands[k].complexity;
+                let pk = pos[[i, k]];
+                let mut best = cols as f64;
+                for &o in order[..r].iter().rev() {
+                    let d = pk - pos[[i, o]];
+                    if d >= best {
+                        break;
+                    }
+                    if cands[o].complexity <= ck && d > 1e-9 {
+                        best = d;
+                        break;
+                    }
+                }
+                for &o in &order[r + 1..] {
+                    let d = pos[[i, o]] - pk;
+                    if d >= best {
+                        break;
+                    }
+                    if cands[o].complexity <= ck && d > 1e-9 {
+                        best = d;
+                        break;
+                    }
+                }
+                out[k] = 0.5 * best;
+            }
+        });
+    let b = map.y().values();
+    let win = (rows / 25).max(1);
+    let min_rows = opts.min_rows.max(rows / 25);
+    (0..cands.len())
+        .into_par_iter()
+        .map(|k| {
+            let mut contrast = vec![f64::NAN; rows];
+            let mut inside = 0;
+            for i in 0..rows {
+                let f = pos[[i, k]];
+                if !f.is_finite() {
+                    continue;
+                }
+                let row = g.row(i);
+                let row = row.as_slice().expect("standard layout");
+                let gc = sample(row, f);
+                if !gc.is_finite() {
+                    continue;
+                }
+                // Unresolved from a simpler neighbour in this row: no evidence either way.
+                if dmax[[i, k]] < 1.5 {
+                    continue;
+                }
+                let dhi = dmax[[i, k]];
+                let mut best = f64::NEG_INFINITY;
+                let mut d = 1.5;
+                loop {
+                    let (l, r) = (sample(row, f - d), sample(row, f + d));
+                    let side = match (l.is_finite(), r.is_finite()) {
+                        (true, true) => 0.5 * (l + r),
+                        (true, false) => l,
+                        (false, true) => r,
+                        _ => f64::NAN,
+                    };
+                    if side.is_finite() {
+                        best = best.max(gc - side);
+                    }
+                    if d >= dhi {
+                        break;
+                    }
+                    d = (d * 1.6).min(dhi);
+                }
+                if best.is_finite() {
+                    contrast[i] = best;
+                    inside += 1;
+                }
+            }
+            // Smoothed contrast over `win` rows on each side.
+            let smooth: Vec<f64> = (0..rows)
+                .map(|i| {
+                    if !contrast[i].is_finite() {
+                        return f64::NAN;
+                    }
+                    let lo = i.saturating_sub(win);
+                    let hi = (i + win + 1).min(rows);
+                    let v: Vec<f64> = contrast[lo..hi]
+                        .iter()
+                        .copied()
+                        .filter(|x| x.is_finite())
+                        .collect();
+                    v.iter().sum::<f64>() / v.len() as f64
+                })
+                .collect();
+            // Longest run (by summed contrast) of rows above the threshold.
+            let mut best_run: Option<(usize, usize, f64)> = None;
+            let mut i = 0;
+            while i < rows {
+                if smooth[i].is_finite() && smooth[i] > opts.row_threshold {
+                    let start = i;
+                    let mut sum = 0.0;
+                    while i < rows && smooth[i].is_finite() && smooth[i] > opts.row_threshold {
+                        sum += contrast[i];
+                        i += 1;
+                    }
+                    if best_run.is_none_or(|(_, _, s)| sum > s) {
+                        best_run = Some((start, i, sum));
+                    }
+                } else {
+                    i += 1;
+                }
+            }
+            let mut ev = LineEvidence {
+                candidate: k,
+                score: 0.0,
+                t_stat: 0.0,
+                b_onset_t: None,
+                b_max_t: None,
+                rows_seen: 0,
+                rows_inside: inside,
+            };
+            if let Some((a, z, _)) = best_run {
+                let v: Vec<f64> = contrast[a..z].to_vec();
+                let n = v.len() as f64;
+                let mean = v.iter().sum::<f64>() / n;
+                let var = v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+                ev.score = mean;
+                ev.t_stat = mean / (var.sqrt() / n.sqrt()).max(1e-9);
+                ev.rows_seen = v.len();
+                let (b0, b1) = (b[a], b[z - 1]);
+                ev.b_onset_t = Some(b0.min(b1));
+                ev.b_max_t = Some(b0.max(b1));
+                if v.len() < min_rows {
+                    ev.score = 0.0;
+                }
+            }
+            ev
+        })
+        .collect()
+}
+
+/// True when an evidence passes the detection thresholds.
+pub fn is_detected(ev: &LineEvidence, opts: &ScoreOptions) -> bool {
+    ev.score >= opts.min_score && ev.t_stat >= opts.min_t
+}
+
+/// Non-maximum suppression: of detections whose lines lie within `merge_columns` of each other
+/// (mean over their common seen rows), keep the one with the better score per complexity
+/// (the smaller complexity wins ties). Returns the kept evidence indices, best first.
+pub fn suppress_neighbours(
+    map: &Map,
+    gate: &SingleGate,
+    n0_m2: Option<f64>,
+    cands: &[Candidate],
+    evidence: &[LineEvidence],
+    opts: &ScoreOptions,
+) -> Vec<usize> {
+    let key = |e: &LineEvidence| e.score / cands[e.candidate].complexity.sqrt();
+    let mut order: Vec<usize> = (0..evidence.len())
+        .filter(|&i| is_detected(&evidence[i], opts))
+        .collect();
+    order.sort_by(|&a, &b| {
+        key(&evidence[b]).total_cmp(&key(&evidence[a])).then(
+            cands[evidence[a].candidate]
+                .complexity
+                .total_cmp(&cands[evidence[b].candidate].complexity),
+        )
+    });
+    let b = map.y().values();
+    let col = |k: usize, bt: f64| -> f64 {
+        let c = &cands[k];
+        let m = if c.s.is_zero() {
+            0.0
+        } else {
+            c.s.to_f64() * n0_m2.unwrap_or(f64::NAN)
+        };
+        column_of(map, gate, c.t.to_f64() * E_OVER_H * bt + m).unwrap_or(f64::NAN)
+    };
+    let mut kept: Vec<usize> = Vec::new();
+    for &i in &order {
+        let ei = &evidence[i];
+        let (lo, hi) = (ei.b_onset_t.unwrap_or(0.0), ei.b_max_t.unwrap_or(0.0));
+        let clash = kept.iter().any(|&j| {
+            let ej = &evidence[j];
+            let a = lo.max(ej.b_onset_t.unwrap_or(0.0));
+            let z = hi.min(ej.b_max_t.unwrap_or(0.0));
+            if a > z {
+                return false;
+            }
+            let mut sum = 0.0;
+            let mut n = 0;
+            for &bt in b.iter().filter(|&&bt| bt >= a && bt <= z) {
+                let d = (col(ei.candidate, bt) - col(ej.candidate, bt)).abs();
+                if d.is_finite() {
+                    sum += d;
+                    n += 1;
+                }
+            }
+            n > 0 && sum / (n as f64) < opts.merge_columns
+        });
+        if !clash {
+            kept.push(i);
+        }
+    }
+    kept
+}
