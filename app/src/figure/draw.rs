@@ -71,6 +71,7 @@ pub struct DisplayList {
     /// Items in drawing order.
     pub items: Vec<Item>,
     /// Labels that could not be placed without overlap, over all panels.
+    #[allow(dead_code)] // Reported by the figure command.
     pub dropped_labels: usize,
     /// Resolved colour mapping per panel (None without heat map).
     pub mappings: Vec<Option<super::heatmap::ColorMapping>>,
@@ -78,6 +79,7 @@ pub struct DisplayList {
 
 impl DisplayList {
     /// All text items' plain characters, in drawing order (for checks and search).
+    #[allow(dead_code)] // Used by checks and by the viewer's search.
     pub fn texts(&self) -> Vec<String> {
         self.items
             .iter()

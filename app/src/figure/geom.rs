@@ -82,8 +82,11 @@ pub fn clip_polyline(points: &[(f64, f64)], r: &Rect) -> Vec<Vec<(f64, f64)>> {
     out
 }
 
-/// Clip one segment; returns the visible part and whether its end is the original end.
-fn clip_segment(a: (f64, f64), b: (f64, f64), r: &Rect) -> Option<((f64, f64), (f64, f64), bool)> {
+/// The visible part of a segment and whether its end is the segment's own end.
+type ClippedSegment = ((f64, f64), (f64, f64), bool);
+
+/// Clip one segment to `r`.
+fn clip_segment(a: (f64, f64), b: (f64, f64), r: &Rect) -> Option<ClippedSegment> {
     let (dx, dy) = (b.0 - a.0, b.1 - a.1);
     let mut t0 = 0.0f64;
     let mut t1 = 1.0f64;
@@ -129,7 +132,13 @@ mod tests {
     fn clipping_keeps_inside_parts_only() {
         let r = Rect::new(0.0, 0.0, 10.0, 10.0);
         // Enters, leaves, re-enters.
-        let pts = [(-5.0, 5.0), (5.0, 5.0), (15.0, 5.0), (15.0, 8.0), (5.0, 8.0)];
+        let pts = [
+            (-5.0, 5.0),
+            (5.0, 5.0),
+            (15.0, 5.0),
+            (15.0, 8.0),
+            (5.0, 8.0),
+        ];
         let parts = clip_polyline(&pts, &r);
         assert_eq!(parts.len(), 2);
         assert_eq!(parts[0], vec![(0.0, 5.0), (5.0, 5.0), (10.0, 5.0)]);

@@ -74,7 +74,8 @@ pub fn validate(h: &HeatMap) -> Result<()> {
         }
         let up = c[1] > c[0];
         let ok = c.iter().all(|v| v.is_finite())
-            && c.windows(2).all(|w| if up { w[1] > w[0] } else { w[1] < w[0] });
+            && c.windows(2)
+                .all(|w| if up { w[1] > w[0] } else { w[1] < w[0] });
         if !ok {
             return Err(Error::invalid(
                 format!("heat map {name} coordinates"),
@@ -89,7 +90,7 @@ pub fn validate(h: &HeatMap) -> Result<()> {
         ));
     }
     if let ColorScale::SymLog { linear_threshold } = h.scale {
-        if !(linear_threshold > 0.0) || !linear_threshold.is_finite() {
+        if linear_threshold.is_nan() || linear_threshold <= 0.0 || !linear_threshold.is_finite() {
             return Err(Error::invalid(
                 "symmetric-log scale",
                 format!("linear threshold must be positive, got {linear_threshold}"),
@@ -181,7 +182,11 @@ fn axis_samples(coords: &[f64], pos: impl Iterator<Item = f64>, mode: Resample) 
         } else {
             (i - 1, i)
         };
-        let w = if a == b { 0.0 } else { (k - key[a]) / (key[b] - key[a]) };
+        let w = if a == b {
+            0.0
+        } else {
+            (k - key[a]) / (key[b] - key[a])
+        };
         Some(match mode {
             Resample::Bilinear => (a, b, w),
             Resample::Nearest => {
@@ -299,17 +304,27 @@ mod tests {
 
     #[test]
     fn scales_put_values_where_expected() {
-        let lin = ColorMapping { lo: 0.0, hi: 10.0, scale: ColorScale::Linear };
+        let lin = ColorMapping {
+            lo: 0.0,
+            hi: 10.0,
+            scale: ColorScale::Linear,
+        };
         assert_eq!(lin.position(2.5), Some(0.25));
         assert_eq!(lin.position(-4.0), Some(0.0));
         assert_eq!(lin.position(f64::NAN), None);
-        let log = ColorMapping { lo: 1.0, hi: 1e4, scale: ColorScale::Log };
+        let log = ColorMapping {
+            lo: 1.0,
+            hi: 1e4,
+            scale: ColorScale::Log,
+        };
         assert!((log.position(100.0).unwrap() - 0.5).abs() < 1e-12);
         assert_eq!(log.position(0.0), None);
         let sym = ColorMapping {
             lo: -100.0,
             hi: 100.0,
-            scale: ColorScale::SymLog { linear_threshold: 1.0 },
+            scale: ColorScale::SymLog {
+                linear_threshold: 1.0,
+            },
         };
         assert!((sym.position(0.0).unwrap() - 0.5).abs() < 1e-12);
         let p = sym.position(10.0).unwrap();
@@ -325,7 +340,12 @@ mod tests {
         v[[0, 0]] = -1e9;
         v[[9, 9]] = 1e9;
         v[[5, 5]] = f64::NAN;
-        let mut h = map(v, (0..10).map(f64::from).collect(), (0..10).map(f64::from).collect(), Resample::Nearest);
+        let mut h = map(
+            v,
+            (0..10).map(f64::from).collect(),
+            (0..10).map(f64::from).collect(),
+            Resample::Nearest,
+        );
         h.range = ValueRange::Percentile(2.0, 98.0);
         let m = resolve_mapping(&h).unwrap();
         assert!(m.lo > 0.0 && m.lo < 5.0, "{m:?}");
@@ -338,7 +358,12 @@ mod tests {
     fn nearest_and_bilinear_sampling_on_a_non_uniform_grid() {
         // Two columns at x = 0 and x = 3, values 0 and 1; rows identical.
         let v = Array2::from_shape_fn((2, 2), |(_, j)| j as f64);
-        let h = map(v.clone(), vec![0.0, 3.0], vec![0.0, 1.0], Resample::Bilinear);
+        let h = map(
+            v.clone(),
+            vec![0.0, 3.0],
+            vec![0.0, 1.0],
+            Resample::Bilinear,
+        );
         let m = resolve_mapping(&h).unwrap();
         // Four pixel centres at x = 0, 1, 2, 3 (window −0.5 … 3.5).
         let img = render_rgba(&h, &m, (-0.5, 3.5), (1.0, 0.0), 4, 1);
@@ -359,7 +384,8 @@ mod tests {
         let mut h = map(v, vec![2.0, 1.0, 0.0], vec![0.0, 1.0], Resample::Nearest);
         // One row only is invalid.
         assert!(validate(&h).is_err());
-        h.values = Array2::from_shape_vec((2, 3), vec![0.0, f64::NAN, 1.0, 0.0, f64::NAN, 1.0]).unwrap();
+        h.values =
+            Array2::from_shape_vec((2, 3), vec![0.0, f64::NAN, 1.0, 0.0, f64::NAN, 1.0]).unwrap();
         validate(&h).unwrap();
         h.missing = Some([255, 0, 0]);
         let m = resolve_mapping(&h).unwrap();

@@ -126,19 +126,35 @@ mod tests {
     fn uncrowded_labels_sit_on_their_first_anchor() {
         let bounds = Rect::new(0.0, 0.0, 100.0, 100.0);
         let reqs = vec![
-            LabelRequest { width: 10.0, height: 5.0, anchors: vec![(20.0, 20.0)] },
-            LabelRequest { width: 10.0, height: 5.0, anchors: vec![(70.0, 70.0)] },
+            LabelRequest {
+                width: 10.0,
+                height: 5.0,
+                anchors: vec![(20.0, 20.0)],
+            },
+            LabelRequest {
+                width: 10.0,
+                height: 5.0,
+                anchors: vec![(70.0, 70.0)],
+            },
         ];
         let p = place_labels(&reqs, &bounds, &[], 1.0);
         assert_eq!(p.dropped, 0);
         assert_eq!(p.boxes[0], Some(Rect::new(15.0, 17.5, 25.0, 22.5)));
         // An anchor at the edge pushes the box inward, never out.
-        let edge = vec![LabelRequest { width: 10.0, height: 5.0, anchors: vec![(0.0, 50.0)] }];
+        let edge = vec![LabelRequest {
+            width: 10.0,
+            height: 5.0,
+            anchors: vec![(0.0, 50.0)],
+        }];
         let q = place_labels(&edge, &bounds, &[], 1.0);
         let r = q.boxes[0].unwrap();
         assert!(r.x0 >= 0.0 && (r.x0 - 1.0).abs() < 1e-12);
         // Too big for the panel: dropped.
-        let big = vec![LabelRequest { width: 200.0, height: 5.0, anchors: vec![(50.0, 50.0)] }];
+        let big = vec![LabelRequest {
+            width: 200.0,
+            height: 5.0,
+            anchors: vec![(50.0, 50.0)],
+        }];
         assert_eq!(place_labels(&big, &bounds, &[], 1.0).dropped, 1);
     }
 }

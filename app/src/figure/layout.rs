@@ -87,7 +87,9 @@ fn check_monotone(f: &AxisFn, a: f64, b: f64, what: &str) -> Result<()> {
     let v: Vec<f64> = (0..=64).map(|i| f(a + (b - a) * i as f64 / 64.0)).collect();
     let up = v[64] > v[0];
     if v.iter().any(|x| !x.is_finite())
-        || !v.windows(2).all(|w| if up { w[1] > w[0] } else { w[1] < w[0] })
+        || !v
+            .windows(2)
+            .all(|w| if up { w[1] > w[0] } else { w[1] < w[0] })
     {
         return Err(Error::invalid(
             what,
@@ -227,7 +229,10 @@ fn layout_panel(
         None => None,
     };
     if p.colorbar.is_some() && mapping.is_none() {
-        return Err(Error::invalid("colour bar", "a colour bar needs a heat map"));
+        return Err(Error::invalid(
+            "colour bar",
+            "a colour bar needs a heat map",
+        ));
     }
 
     let width_of = |b: &TextBlock| b.width;
@@ -280,7 +285,8 @@ fn layout_panel(
                 label: with_factor(&s.label, &t),
             }
         });
-        let cbt = mapping.map(|m| fitted_ticks(&|n| colorbar_ticks(&m, n), plot.height(), fs, &height_of));
+        let cbt = mapping
+            .map(|m| fitted_ticks(&|n| colorbar_ticks(&m, n), plot.height(), fs, &height_of));
 
         let blocks = |labels: &mut dyn Iterator<Item = &String>| -> Vec<TextBlock> {
             labels.map(|l| text::layout(l, fs)).collect()
@@ -317,15 +323,40 @@ fn layout_panel(
                 let tb = blocks(&mut t.ticks.iter().map(|t| &t.label));
                 let lb = text::layout(&with_factor(&cb.label, t), fs);
                 let bw = cb.width_mm / MM_PER_PT;
-                right = extent + BAR_GAP + bw + TICK_LEN + TICK_PAD + max_w(&tb) + LABEL_PAD
+                right = extent
+                    + BAR_GAP
+                    + bw
+                    + TICK_LEN
+                    + TICK_PAD
+                    + max_w(&tb)
+                    + LABEL_PAD
                     + lb.height()
                     + OUTER;
                 Some((tb, lb, bw))
             }
             _ => None,
         };
-        plot = Rect::new(cell.x0 + left, cell.y0 + top, cell.x1 - right, cell.y1 - bottom);
-        result = Some((xt, yt, xtb, ytb, xl, yl, top_ax, top_blocks, right_ax, right_blocks, extent, cbt, bar));
+        plot = Rect::new(
+            cell.x0 + left,
+            cell.y0 + top,
+            cell.x1 - right,
+            cell.y1 - bottom,
+        );
+        result = Some((
+            xt,
+            yt,
+            xtb,
+            ytb,
+            xl,
+            yl,
+            top_ax,
+            top_blocks,
+            right_ax,
+            right_blocks,
+            extent,
+            cbt,
+            bar,
+        ));
     }
     if plot.width() < 10.0 || plot.height() < 10.0 {
         return Err(Error::invalid(
@@ -341,9 +372,13 @@ fn layout_panel(
 
     // Heat map, then overlays.
     if p.heatmap.is_some() {
-        items.push(Item::HeatMap { panel: index, rect: r });
+        items.push(Item::HeatMap {
+            panel: index,
+            rect: r,
+        });
     }
-    let page_lines: Vec<(Vec<Vec<(f64, f64)>>, &LineStyle)> = p
+    type Parts = Vec<Vec<(f64, f64)>>;
+    let page_lines: Vec<(Parts, &LineStyle)> = p
         .lines
         .iter()
         .map(|l| {
@@ -438,7 +473,10 @@ fn layout_panel(
     if let (Some((tb, lb, bw)), Some(t), Some(m)) = (bar, cbt, mapping) {
         let x0 = r.x1 + extent + BAR_GAP;
         let cb = Rect::new(x0, r.y0, x0 + bw, r.y1);
-        items.push(Item::ColorStrip { panel: index, rect: cb });
+        items.push(Item::ColorStrip {
+            panel: index,
+            rect: cb,
+        });
         items.push(Item::Path {
             points: rect_points(&cb),
             closed: true,
@@ -462,24 +500,36 @@ fn layout_panel(
     }
 
     // Legend box (an obstacle for labels), then labels, then the legend on top.
-    let legend = p.legend.as_ref().filter(|l| !l.entries.is_empty()).map(|l| {
-        let pad = 3.0;
-        let sw = 12.0;
-        let blocks: Vec<TextBlock> = l.entries.iter().map(|e| text::layout(&e.text, fs)).collect();
-        let row = blocks.iter().map(|b| b.height()).fold(fs, f64::max) + 2.0;
-        let bw = pad * 2.0 + sw + 3.0 + blocks.iter().map(|b| b.width).fold(0.0, f64::max);
-        let bh = pad * 2.0 + row * blocks.len() as f64;
-        let inset = 4.0;
-        let (x0, y0) = match l.corner {
-            Corner::TopLeft => (r.x0 + inset, r.y0 + inset),
-            Corner::TopRight => (r.x1 - inset - bw, r.y0 + inset),
-            Corner::BottomLeft => (r.x0 + inset, r.y1 - inset - bh),
-            Corner::BottomRight => (r.x1 - inset - bw, r.y1 - inset - bh),
-        };
-        (Rect::new(x0, y0, x0 + bw, y0 + bh), blocks, row, pad, sw, l)
-    });
+    let legend = p
+        .legend
+        .as_ref()
+        .filter(|l| !l.entries.is_empty())
+        .map(|l| {
+            let pad = 3.0;
+            let sw = 12.0;
+            let blocks: Vec<TextBlock> = l
+                .entries
+                .iter()
+                .map(|e| text::layout(&e.text, fs))
+                .collect();
+            let row = blocks.iter().map(|b| b.height()).fold(fs, f64::max) + 2.0;
+            let bw = pad * 2.0 + sw + 3.0 + blocks.iter().map(|b| b.width).fold(0.0, f64::max);
+            let bh = pad * 2.0 + row * blocks.len() as f64;
+            let inset = 4.0;
+            let (x0, y0) = match l.corner {
+                Corner::TopLeft => (r.x0 + inset, r.y0 + inset),
+                Corner::TopRight => (r.x1 - inset - bw, r.y0 + inset),
+                Corner::BottomLeft => (r.x0 + inset, r.y1 - inset - bh),
+                Corner::BottomRight => (r.x1 - inset - bw, r.y1 - inset - bh),
+            };
+            (Rect::new(x0, y0, x0 + bw, y0 + bh), blocks, row, pad, sw, l)
+        });
     let obstacles: Vec<Rect> = legend.iter().map(|l| l.0).collect();
-    let label_blocks: Vec<TextBlock> = p.labels.iter().map(|l| text::layout(&l.text, l.size_pt)).collect();
+    let label_blocks: Vec<TextBlock> = p
+        .labels
+        .iter()
+        .map(|l| text::layout(&l.text, l.size_pt))
+        .collect();
     let pad = 0.8;
     let requests: Vec<LabelRequest> = p
         .labels
@@ -550,7 +600,11 @@ fn layout_panel(
 /// the text's advance.
 fn push_text(items: &mut Vec<Item>, block: TextBlock, x: f64, y: f64, align: f64, vertical: bool) {
     let shift = block.width * align;
-    let (x, y) = if vertical { (x, y + shift) } else { (x - shift, y) };
+    let (x, y) = if vertical {
+        (x, y + shift)
+    } else {
+        (x - shift, y)
+    };
     items.push(Item::Text {
         block,
         x,
@@ -586,14 +640,24 @@ pub fn marker_items(m: &MarkerStyle, cx: f64, cy: f64, clip: Option<Rect>) -> Ve
         )],
         MarkerShape::Square => {
             let s = r * 0.85;
-            vec![poly(vec![(cx - s, cy - s), (cx + s, cy - s), (cx + s, cy + s), (cx - s, cy + s)])]
+            vec![poly(vec![
+                (cx - s, cy - s),
+                (cx + s, cy - s),
+                (cx + s, cy + s),
+                (cx - s, cy + s),
+            ])]
         }
         MarkerShape::Triangle => vec![poly(vec![
             (cx, cy - r),
             (cx + r * 0.866, cy + r * 0.5),
             (cx - r * 0.866, cy + r * 0.5),
         ])],
-        MarkerShape::Diamond => vec![poly(vec![(cx, cy - r), (cx + r * 0.75, cy), (cx, cy + r), (cx - r * 0.75, cy)])],
+        MarkerShape::Diamond => vec![poly(vec![
+            (cx, cy - r),
+            (cx + r * 0.75, cy),
+            (cx, cy + r),
+            (cx - r * 0.75, cy),
+        ])],
         MarkerShape::Cross => {
             let s = r * 0.8;
             let st = Stroke {

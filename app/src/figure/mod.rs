@@ -21,6 +21,7 @@ use fanmark_core::Result;
 use std::path::Path;
 
 /// Output format of a figure file.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
 pub enum Format {
     /// PNG raster at the figure's DPI.
@@ -32,6 +33,7 @@ pub enum Format {
 }
 
 /// Encode the figure in `format`.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
 pub fn encode(fig: &scene::Figure, format: Format) -> Result<Vec<u8>> {
     match format {
         Format::Png => raster::png_bytes(fig),
@@ -41,6 +43,7 @@ pub fn encode(fig: &scene::Figure, format: Format) -> Result<Vec<u8>> {
 }
 
 /// Write the figure to `path` atomically in `format`.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
 pub fn write(fig: &scene::Figure, format: Format, path: &Path) -> Result<()> {
     fanmark_core::io::write::write_atomic(path, &encode(fig, format)?)
 }

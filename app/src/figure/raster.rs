@@ -25,6 +25,7 @@ pub fn pixel_rect(r: &Rect, scale: f64) -> (i64, i64, i64, i64) {
 /// The heat-map layer of one panel at device resolution: straight-alpha RGBA of
 /// `width`×`height` pixels covering the panel's axis ranges exactly. The viewer can cache it and
 /// redraw only the overlay.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
 pub fn heatmap_layer(
     hm: &HeatMap,
     mapping: &ColorMapping,
@@ -38,6 +39,7 @@ pub fn heatmap_layer(
 
 /// Render the figure to a pixmap at its DPI (white background). This is the call a viewer makes
 /// each frame.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
 pub fn render_rgba(fig: &Figure) -> Result<Pixmap> {
     let list = layout(fig)?;
     draw_list(fig, &list)
@@ -89,7 +91,15 @@ pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
                     }
                 });
                 let mask = mask.map(|i| &masks[i].1);
-                draw_path(&mut pm, points, *closed, *fill, stroke.as_ref(), scale, mask);
+                draw_path(
+                    &mut pm,
+                    points,
+                    *closed,
+                    *fill,
+                    stroke.as_ref(),
+                    scale,
+                    mask,
+                );
             }
             Item::Text {
                 block,
@@ -97,7 +107,15 @@ pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
                 y,
                 vertical,
                 color,
-            } => draw_text(&mut pm, block, *x * scale, *y * scale, scale, *vertical, *color),
+            } => draw_text(
+                &mut pm,
+                block,
+                *x * scale,
+                *y * scale,
+                scale,
+                *vertical,
+                *color,
+            ),
         }
     }
     Ok(pm)
@@ -177,7 +195,13 @@ fn draw_path(
     };
     if let Some(c) = fill {
         paint.set_color_rgba8(c[0], c[1], c[2], 255);
-        pm.fill_path(&path, &paint, FillRule::Winding, Transform::identity(), mask);
+        pm.fill_path(
+            &path,
+            &paint,
+            FillRule::Winding,
+            Transform::identity(),
+            mask,
+        );
     }
     if let Some(s) = stroke {
         paint.set_color_rgba8(s.color[0], s.color[1], s.color[2], 255);
@@ -225,7 +249,11 @@ fn draw_text(
                         continue;
                     }
                     let (u, v) = (u0 + gx as i64, v0 + gy as i64);
-                    let (dx, dy) = if vertical { (ox + v, oy - u) } else { (ox + u, oy + v) };
+                    let (dx, dy) = if vertical {
+                        (ox + v, oy - u)
+                    } else {
+                        (ox + u, oy + v)
+                    };
                     if dx < 0 || dy < 0 || dx >= pw || dy >= ph {
                         continue;
                     }
@@ -253,8 +281,13 @@ pub fn encode_png(pm: &Pixmap, dpi: f64) -> Result<Vec<u8>> {
     {
         use image::ImageEncoder;
         let enc = image::codecs::png::PngEncoder::new(&mut png);
-        enc.write_image(&rgba, pm.width(), pm.height(), image::ExtendedColorType::Rgba8)
-            .map_err(|e| Error::invalid("PNG encoding", e.to_string()))?;
+        enc.write_image(
+            &rgba,
+            pm.width(),
+            pm.height(),
+            image::ExtendedColorType::Rgba8,
+        )
+        .map_err(|e| Error::invalid("PNG encoding", e.to_string()))?;
     }
     Ok(insert_phys(&png, dpi))
 }
@@ -287,7 +320,11 @@ fn crc32(bytes: &[u8]) -> u32 {
     for &b in bytes {
         c ^= b as u32;
         for _ in 0..8 {
-            c = if c & 1 != 0 { 0xEDB8_8320 ^ (c >> 1) } else { c >> 1 };
+            c = if c & 1 != 0 {
+                0xEDB8_8320 ^ (c >> 1)
+            } else {
+                c >> 1
+            };
         }
     }
     c ^ 0xFFFF_FFFF

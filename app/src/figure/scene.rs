@@ -32,6 +32,7 @@ pub struct Figure {
 
 impl Figure {
     /// An empty figure of the given size in mm at 300 dpi with 7 pt text.
+    #[allow(dead_code)] // Built by the figure command and the viewer.
     pub fn new(width_mm: f64, height_mm: f64) -> Figure {
         Figure {
             width_mm,
@@ -63,6 +64,7 @@ impl Figure {
 
 /// How map values are turned into a position 0…1 along the colour table.
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum ColorScale {
     /// Linear in the value.
     Linear,
@@ -78,6 +80,7 @@ pub enum ColorScale {
 
 /// Where the colour range comes from.
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum ValueRange {
     /// Fixed limits (lower, upper) in the value's unit.
     Fixed(f64, f64),
@@ -87,6 +90,7 @@ pub enum ValueRange {
 
 /// How the heat map is resampled to output pixels.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum Resample {
     /// Each output pixel shows the nearest data point (cells are visible).
     Nearest,
@@ -169,6 +173,7 @@ pub struct LineStyle {
 
 impl LineStyle {
     /// A solid line of the given colour and width in pt, without outline.
+    #[allow(dead_code)] // Built by the figure command and the viewer.
     pub fn solid(color: [u8; 3], width_pt: f64) -> LineStyle {
         LineStyle {
             color,
@@ -207,6 +212,7 @@ pub struct TextLabel {
 
 /// Marker shapes.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum MarkerShape {
     /// Filled circle.
     Circle,
@@ -244,6 +250,7 @@ pub struct Markers {
 
 /// The swatch shown in a legend entry.
 #[derive(Clone, Debug)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum Swatch {
     /// A short line in this style.
     Line(LineStyle),
@@ -262,6 +269,7 @@ pub struct LegendEntry {
 
 /// Which corner of the plot area holds the legend.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[allow(dead_code)] // Built by the figure command and the viewer.
 pub enum Corner {
     /// Top left.
     TopLeft,
@@ -309,6 +317,7 @@ pub struct Panel {
 
 impl Panel {
     /// A panel with the given axes and nothing in it.
+    #[allow(dead_code)] // Built by the figure command and the viewer.
     pub fn new(x_axis: AxisSpec, y_axis: AxisSpec) -> Panel {
         Panel {
             heatmap: None,

@@ -130,13 +130,23 @@ pub fn svg_from_list(fig: &Figure, list: &DisplayList) -> Result<String> {
                 let nx = (cx.1 - cx.0 + 1) as u32;
                 let ny = (cy.1 - cy.0 + 1) as u32;
                 // Orient the image left→right and top→bottom on the page.
-                let (xl, xr) = if px(cx.2) <= px(cx.3) { (cx.2, cx.3) } else { (cx.3, cx.2) };
-                let (yt, ybm) = if py(cy.2) <= py(cy.3) { (cy.2, cy.3) } else { (cy.3, cy.2) };
+                let (xl, xr) = if px(cx.2) <= px(cx.3) {
+                    (cx.2, cx.3)
+                } else {
+                    (cx.3, cx.2)
+                };
+                let (yt, ybm) = if py(cy.2) <= py(cy.3) {
+                    (cy.2, cy.3)
+                } else {
+                    (cy.3, cy.2)
+                };
                 let img = heatmap::render_rgba(hm, &m, (xl, xr), (yt, ybm), nx, ny);
                 let png = png_of(&img, nx, ny)?;
                 let id = clip_id(&mut s, rect);
                 let rendering = match hm.resample {
-                    Resample::Nearest => r#"image-rendering="optimizeSpeed" style="image-rendering:pixelated""#,
+                    Resample::Nearest => {
+                        r#"image-rendering="optimizeSpeed" style="image-rendering:pixelated""#
+                    }
                     Resample::Bilinear => r#"image-rendering="optimizeQuality""#,
                 };
                 let _ = writeln!(
@@ -180,7 +190,13 @@ pub fn svg_from_list(fig: &Figure, list: &DisplayList) -> Result<String> {
                 };
                 let mut d = String::new();
                 for (k, p) in points.iter().enumerate() {
-                    let _ = write!(d, "{}{} {}", if k == 0 { "M" } else { " L" }, f(p.0), f(p.1));
+                    let _ = write!(
+                        d,
+                        "{}{} {}",
+                        if k == 0 { "M" } else { " L" },
+                        f(p.0),
+                        f(p.1)
+                    );
                 }
                 if *closed {
                     d.push_str(" Z");

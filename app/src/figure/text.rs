@@ -206,7 +206,10 @@ mod tests {
     #[test]
     fn markup_sub_and_superscripts() {
         let s = parse_markup("R_{xx} (cm^{−2})");
-        let parts: Vec<(&str, Vec<i8>)> = s.iter().map(|s| (s.text.as_str(), s.levels.clone())).collect();
+        let parts: Vec<(&str, Vec<i8>)> = s
+            .iter()
+            .map(|s| (s.text.as_str(), s.levels.clone()))
+            .collect();
         assert_eq!(
             parts,
             vec![
@@ -236,7 +239,11 @@ mod tests {
         let b = layout("cm^{−2}", 10.0);
         assert_eq!(b.spans.len(), 2);
         assert!((b.spans[1].size - 7.0).abs() < 1e-9);
-        assert!(b.spans[1].dy < -3.0, "superscript raised: {}", b.spans[1].dy);
+        assert!(
+            b.spans[1].dy < -3.0,
+            "superscript raised: {}",
+            b.spans[1].dy
+        );
         assert!((b.spans[1].dx - advance("cm", 10.0)).abs() < 1e-9);
         let sub = layout("R_{xx}", 10.0);
         assert!(sub.spans[1].dy > 1.0);
@@ -256,7 +263,10 @@ mod tests {
         // Greek letters and super/subscript digits have real glyphs (non-zero ink).
         for c in ['ν', 'φ', '₀', '²', 'Ω', '−'] {
             let g = glyph(c, 20.0);
-            assert!(g.0.width > 0 && g.1.iter().any(|&v| v > 128), "{c} has no glyph");
+            assert!(
+                g.0.width > 0 && g.1.iter().any(|&v| v > 128),
+                "{c} has no glyph"
+            );
         }
     }
 }

@@ -89,9 +89,7 @@ pub fn linear_ticks(lo: f64, hi: f64, max_count: usize) -> TickSet {
         }
         k += 1;
     };
-    let values: Vec<f64> = (first..=last)
-        .map(|i| scaled(i * step_m, step_k))
-        .collect();
+    let values: Vec<f64> = (first..=last).map(|i| scaled(i * step_m, step_k)).collect();
     let max_abs = values.iter().fold(0.0f64, |m, v| m.max(v.abs()));
     let exponent = if max_abs >= 1e4 || (max_abs > 0.0 && max_abs < 1e-2) {
         max_abs.log10().floor() as i32
@@ -112,7 +110,11 @@ pub fn linear_ticks(lo: f64, hi: f64, max_count: usize) -> TickSet {
 fn format_fixed(v: f64, decimals: usize) -> String {
     let s = format!("{:.*}", decimals, v);
     // "-0", "-0.0" → "0", "0.0"
-    let s = if s.trim_start_matches('-').chars().all(|c| c == '0' || c == '.') {
+    let s = if s
+        .trim_start_matches('-')
+        .chars()
+        .all(|c| c == '0' || c == '.')
+    {
         s.trim_start_matches('-').to_string()
     } else {
         s
@@ -126,16 +128,17 @@ fn decade_label(k: i32) -> String {
 
 /// Ticks for a logarithmic scale over [lo, hi] (both > 0): one tick per decade, thinned to every
 /// 2nd, 5th, 10th… decade when there are more than `max_count`. A range holding fewer than two
-/// decades falls back to [`linear_ticks`]. Non-positive or non-finite bounds give an empty set.
+/// decade ticks gets ticks at 1, 2, 5 × 10^k (or every integer mantissa) instead. Non-positive
+/// or non-finite bounds give an empty set.
 pub fn log_ticks(lo: f64, hi: f64, max_count: usize) -> TickSet {
-    if !(lo > 0.0) || !(hi > 0.0) || !lo.is_finite() || !hi.is_finite() {
+    if !lo.is_finite() || !hi.is_finite() || lo <= 0.0 || hi <= 0.0 {
         return TickSet::default();
     }
     let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
     let k0 = (a.log10() - 1e-9).ceil() as i32;
     let k1 = (b.log10() + 1e-9).floor() as i32;
     if k1 - k0 + 1 < 2 {
-        return linear_ticks(a, b, max_count);
+        return log_ticks_within_decades(a, b, max_count);
     }
     let n = (k1 - k0 + 1) as usize;
     let stride = nice_stride(n, max_count.max(2));
@@ -144,6 +147,40 @@ pub fn log_ticks(lo: f64, hi: f64, max_count: usize) -> TickSet {
         .map(|k| Tick {
             value: pow10(k),
             label: decade_label(k),
+        })
+        .collect();
+    TickSet { ticks, exponent: 0 }
+}
+
+/// Ticks at 1, 2, 5 × 10^k (or every integer mantissa when that gives too few) for a log range
+/// spanning less than two decades; falls back to [`linear_ticks`] if fewer than two fit.
+fn log_ticks_within_decades(a: f64, b: f64, max_count: usize) -> TickSet {
+    let k_lo = a.log10().floor() as i32;
+    let k_hi = b.log10().floor() as i32;
+    let pick = |mantissas: &[i64]| -> Vec<(i64, i32)> {
+        (k_lo..=k_hi)
+            .flat_map(|k| mantissas.iter().map(move |&m| (m, k)))
+            .filter(|&(m, k)| {
+                let v = scaled(m, k);
+                v >= a * (1.0 - 1e-12) && v <= b * (1.0 + 1e-12)
+            })
+            .collect()
+    };
+    let mut chosen = pick(&[1, 2, 5]);
+    if chosen.len() < 3 {
+        let all = pick(&[1, 2, 3, 4, 5, 6, 7, 8, 9]);
+        if all.len() <= max_count {
+            chosen = all;
+        }
+    }
+    if chosen.len() < 2 || chosen.len() > max_count {
+        return linear_ticks(a, b, max_count);
+    }
+    let ticks = chosen
+        .into_iter()
+        .map(|(m, k)| Tick {
+            value: scaled(m, k),
+            label: format_fixed(scaled(m, k), (-k).max(0) as usize),
         })
         .collect();
     TickSet { ticks, exponent: 0 }
@@ -167,7 +204,7 @@ fn nice_stride(n: usize, max_count: usize) -> usize {
 /// zero (when inside) and ±10^k for the decades at or above the threshold, thinned to at most
 /// `max_count`. Falls back to [`linear_ticks`] when the range lies within the linear region.
 pub fn symlog_ticks(lo: f64, hi: f64, linear_threshold: f64, max_count: usize) -> TickSet {
-    if !lo.is_finite() || !hi.is_finite() || !(linear_threshold > 0.0) {
+    if !lo.is_finite() || !hi.is_finite() || linear_threshold.is_nan() || linear_threshold <= 0.0 {
         return TickSet::default();
     }
     let (a, b) = if lo <= hi { (lo, hi) } else { (hi, lo) };
@@ -230,16 +267,27 @@ mod tests {
         );
         for w in t.ticks.windows(2) {
             let d = w[1].value - w[0].value;
-            assert!((d - step).abs() <= 1e-9 * step.abs(), "uneven {d} vs {step}");
+            assert!(
+                (d - step).abs() <= 1e-9 * step.abs(),
+                "uneven {d} vs {step}"
+            );
         }
         let (a, b) = (lo.min(hi), lo.max(hi));
         let tol = (b - a) * 1e-9;
         for tk in &t.ticks {
-            assert!(tk.value >= a - tol && tk.value <= b + tol, "{} out of {a}..{b}", tk.value);
+            assert!(
+                tk.value >= a - tol && tk.value <= b + tol,
+                "{} out of {a}..{b}",
+                tk.value
+            );
         }
         let mut seen = std::collections::HashSet::new();
         for tk in &t.ticks {
-            assert!(seen.insert(tk.label.clone()), "duplicate label {}", tk.label);
+            assert!(
+                seen.insert(tk.label.clone()),
+                "duplicate label {}",
+                tk.label
+            );
         }
     }
 
@@ -276,14 +324,27 @@ mod tests {
     fn negative_range_uses_true_minus() {
         let t = linear_ticks(-3.2, -0.4, 8);
         check_nice(&t, -3.2, -0.4, 8);
-        assert_eq!(labels(&t), ["\u{2212}3.0", "\u{2212}2.5", "\u{2212}2.0", "\u{2212}1.5", "\u{2212}1.0", "\u{2212}0.5"]);
+        assert_eq!(
+            labels(&t),
+            [
+                "\u{2212}3.0",
+                "\u{2212}2.5",
+                "\u{2212}2.0",
+                "\u{2212}1.5",
+                "\u{2212}1.0",
+                "\u{2212}0.5"
+            ]
+        );
         assert!(t.ticks.iter().all(|t| !t.label.contains('-')));
     }
 
     #[test]
     fn symmetric_range_has_a_plain_zero() {
         let t = linear_ticks(-1.0, 1.0, 5);
-        assert_eq!(labels(&t), ["\u{2212}1.0", "\u{2212}0.5", "0.0", "0.5", "1.0"]);
+        assert_eq!(
+            labels(&t),
+            ["\u{2212}1.0", "\u{2212}0.5", "0.0", "0.5", "1.0"]
+        );
     }
 
     #[test]
@@ -332,11 +393,23 @@ mod tests {
         }
         let wide = log_ticks(1e-12, 1e12, 6);
         assert!(wide.ticks.len() <= 6);
-        let k: Vec<i32> = wide.ticks.iter().map(|t| t.value.log10().round() as i32).collect();
+        let k: Vec<i32> = wide
+            .ticks
+            .iter()
+            .map(|t| t.value.log10().round() as i32)
+            .collect();
         assert!(k.windows(2).all(|w| w[1] - w[0] == k[1] - k[0]));
-        // Less than two decades: falls back to linear ticks.
-        let narrow = log_ticks(2.0, 8.0, 5);
-        check_nice(&narrow, 2.0, 8.0, 5);
+        // Less than two decades: 1-2-5 mantissas, then every integer mantissa.
+        let narrow = log_ticks(0.3, 6.2, 8);
+        let l: Vec<&str> = narrow.ticks.iter().map(|t| t.label.as_str()).collect();
+        assert_eq!(l, ["0.5", "1", "2", "5"]);
+        let tight = log_ticks(2.0, 8.0, 8);
+        let l: Vec<&str> = tight.ticks.iter().map(|t| t.label.as_str()).collect();
+        assert_eq!(l, ["2", "3", "4", "5", "6", "7", "8"]);
+        // Little space: the 1-2-5 mantissas only.
+        let few = log_ticks(2.0, 8.0, 3);
+        let l: Vec<&str> = few.ticks.iter().map(|t| t.label.as_str()).collect();
+        assert_eq!(l, ["2", "5"]);
     }
 
     #[test]
