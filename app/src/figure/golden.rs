@@ -563,6 +563,30 @@ fn demo_layout_keeps_text_on_the_page_legible_and_apart() {
 }
 
 #[test]
+fn large_axis_values_move_a_common_factor_into_the_label() {
+    let mut fig = Figure::new(60.0, 45.0);
+    // Density in cm⁻² on the axis: ticks 0…5 with ×10¹² in the label.
+    fig.panels.push(Panel::new(
+        AxisSpec {
+            label: "n (cm^{-2})".into(),
+            range: (0.0, 5e12),
+        },
+        AxisSpec {
+            label: "B (T)".into(),
+            range: (0.0, 1.0),
+        },
+    ));
+    let list = layout(&fig).unwrap();
+    let texts = list.texts();
+    assert!(
+        texts.iter().any(|t| t == "n (cm\u{2212}2)  ×1012"),
+        "{texts:?}"
+    );
+    assert!(texts.iter().any(|t| t == "5"));
+    assert!(!texts.iter().any(|t| t.contains("000")));
+}
+
+#[test]
 fn bad_scenes_are_errors_not_panics() {
     let mut fig = small_scene();
     fig.panels[0].x_axis.range = (1.0, 1.0);
@@ -674,6 +698,73 @@ fn legends_sit_in_their_corner_inside_the_plot() {
         };
         assert_eq!((left, top), want, "{corner:?}");
     }
+}
+
+#[test]
+fn a_reversed_axis_mirrors_the_heat_map() {
+    let mut fig = Figure::new(50.0, 40.0);
+    fig.dpi = 100.0;
+    let mut p = Panel::new(
+        AxisSpec {
+            label: "x".into(),
+            range: (0.0, 4.0),
+        },
+        AxisSpec {
+            label: "y".into(),
+            range: (0.0, 1.0),
+        },
+    );
+    // Value = column index: a ramp in x.
+    p.heatmap = Some(HeatMap {
+        values: Array2::from_shape_fn((2, 4), |(_, j)| j as f64),
+        x: vec![0.5, 1.5, 2.5, 3.5],
+        y: vec![0.0, 1.0],
+        colors: grey(),
+        scale: ColorScale::Linear,
+        range: ValueRange::Fixed(0.0, 3.0),
+        resample: Resample::Nearest,
+        missing: None,
+    });
+    fig.panels.push(p.clone());
+    let mut flipped = fig.clone();
+    flipped.panels[0].x_axis.range = (4.0, 0.0);
+    let row = |f: &Figure| -> Vec<u8> {
+        let list = layout(f).unwrap();
+        let rect = list
+            .items
+            .iter()
+            .find_map(|i| match i {
+                Item::HeatMap { rect, .. } => Some(*rect),
+                _ => None,
+            })
+            .unwrap();
+        let pm = raster::draw_list(f, &list).unwrap();
+        let s = pm.width() as f64 / list.width;
+        let (x0, y0, x1, y1) = raster::pixel_rect(&rect, s);
+        let y = ((y0 + y1) / 2) as u32;
+        (x0 + 2..x1 - 2)
+            .map(|x| pm.pixel(x as u32, y).unwrap().red())
+            .collect()
+    };
+    let (a, b) = (row(&fig), row(&flipped));
+    assert_eq!(a.first(), Some(&0));
+    assert_eq!(a.last(), Some(&255));
+    let mut rb = b.clone();
+    rb.reverse();
+    let differ = a.iter().zip(&rb).filter(|(p, q)| p != q).count();
+    assert!(differ <= 2, "{differ} columns differ from the mirror image");
+    // The SVG embeds the four cells, oriented for the page.
+    let s = svg::svg_string(&flipped).unwrap();
+    let doc = roxmltree::Document::parse(&s).unwrap();
+    let img = doc
+        .descendants()
+        .find(|n| n.has_tag_name("image") && n.attribute("clip-path").is_some())
+        .unwrap();
+    let png = decode_base64(img.attribute("href").unwrap().split(',').nth(1).unwrap());
+    let im = decode(&png);
+    assert_eq!(im.dimensions(), (4, 2));
+    let reds: Vec<u8> = (0..4).map(|x| im.get_pixel(x, 0)[0]).collect();
+    assert_eq!(reds, vec![255, 170, 85, 0]);
 }
 
 #[test]

@@ -127,8 +127,7 @@ pub fn resolve_mapping(h: &HeatMap) -> Result<ColorMapping> {
                     "no values that the colour scale can show",
                 ));
             }
-            v.sort_by(f64::total_cmp);
-            (percentile(&v, pa), percentile(&v, pb))
+            (percentile(&mut v, pa), percentile(&mut v, pb))
         }
     };
     if lo == hi {
@@ -148,12 +147,31 @@ pub fn resolve_mapping(h: &HeatMap) -> Result<ColorMapping> {
     })
 }
 
-/// Percentile `p` (0…100) of sorted values, interpolated linearly between ranks.
-fn percentile(sorted: &[f64], p: f64) -> f64 {
-    let r = p / 100.0 * (sorted.len() - 1) as f64;
+/// Percentile `p` (0…100) of the values, interpolated linearly between ranks (the values are
+/// reordered; no full sort).
+fn percentile(v: &mut [f64], p: f64) -> f64 {
+    let r = p / 100.0 * (v.len() - 1) as f64;
     let i = r.floor() as usize;
-    let j = (i + 1).min(sorted.len() - 1);
-    sorted[i] + (sorted[j] - sorted[i]) * (r - i as f64)
+    let (_, &mut a, rest) = v.select_nth_unstable_by(i, f64::total_cmp);
+    let b = rest.iter().copied().min_by(f64::total_cmp).unwrap_or(a);
+    a + (b - a) * (r - i as f64)
+}
+
+/// Number of equal pixels that show the cells between `edges` along `coords` at the data's own
+/// resolution: the cell count on a uniform grid, enough for the narrowest cell otherwise (at
+/// most 4096).
+pub fn pixels_for_cells(coords: &[f64], first: usize, last: usize, edges: (f64, f64)) -> u32 {
+    let count = (last - first + 1) as u32;
+    let steps: Vec<f64> = coords.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
+    let (lo, hi) = steps
+        .iter()
+        .fold((f64::MAX, 0.0f64), |(a, b), &s| (a.min(s), b.max(s)));
+    if hi <= lo * (1.0 + 1e-6) {
+        count
+    } else {
+        let n = ((edges.1 - edges.0).abs() / lo).ceil();
+        (n.min(4096.0) as u32).max(count)
+    }
 }
 
 /// Where an output sample falls in one coordinate vector: indices of the two bracketing points
@@ -396,6 +414,24 @@ mod tests {
         assert_eq!(&img[8..12], &[0, 0, 0, 255]);
         h.colors.pop();
         assert!(validate(&h).is_err());
+    }
+
+    #[test]
+    fn data_resolution_follows_the_narrowest_cell() {
+        let uniform: Vec<f64> = (0..10).map(f64::from).collect();
+        assert_eq!(pixels_for_cells(&uniform, 2, 6, (1.5, 6.5)), 5);
+        // Spacings 1 and 0.25: a 2.5-wide window needs 10 pixels of 0.25.
+        let mixed = [0.0, 1.0, 2.0, 2.25, 2.5];
+        assert_eq!(pixels_for_cells(&mixed, 0, 4, (-0.5, 2.0)), 10);
+    }
+
+    #[test]
+    fn percentile_interpolates_between_ranks() {
+        let mut v = vec![5.0, 1.0, 4.0, 2.0, 3.0];
+        assert_eq!(percentile(&mut v, 0.0), 1.0);
+        assert_eq!(percentile(&mut v, 100.0), 5.0);
+        assert_eq!(percentile(&mut v, 50.0), 3.0);
+        assert!((percentile(&mut v, 10.0) - 1.4).abs() < 1e-12);
     }
 
     #[test]

@@ -127,8 +127,8 @@ pub fn svg_from_list(fig: &Figure, list: &DisplayList) -> Result<String> {
                 let (ya, yb) = p.y_axis.range;
                 let px = |x: f64| rect.x0 + (x - xa) / (xb - xa) * rect.width();
                 let py = |y: f64| rect.y1 - (y - ya) / (yb - ya) * rect.height();
-                let nx = (cx.1 - cx.0 + 1) as u32;
-                let ny = (cy.1 - cy.0 + 1) as u32;
+                let nx = heatmap::pixels_for_cells(&hm.x, cx.0, cx.1, (cx.2, cx.3));
+                let ny = heatmap::pixels_for_cells(&hm.y, cy.0, cy.1, (cy.2, cy.3));
                 // Orient the image left→right and top→bottom on the page.
                 let (xl, xr) = if px(cx.2) <= px(cx.3) {
                     (cx.2, cx.3)

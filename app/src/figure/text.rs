@@ -3,7 +3,7 @@
 //! glyph cache for raster output.
 //!
 //! Markup: `_x` or `_{…}` is a subscript, `^x` or `^{…}` a superscript (they nest), `\` escapes
-//! the next character. Unicode super/subscript characters (², ₀) and Greek letters are ordinary
+//! the next character; inside scripts `-` becomes the minus sign U+2212. Unicode super/subscript characters (², ₀) and Greek letters are ordinary
 //! glyphs. Scripts are set at [`SCRIPT_SCALE`] of the surrounding size with a baseline shift.
 
 use std::cell::RefCell;
@@ -87,6 +87,8 @@ fn parse_into(
                 }
                 levels.pop();
             }
+            // In scripts an ASCII hyphen is a minus sign (cm^{-2}).
+            '-' if !levels.is_empty() => push_char(out, levels, '\u{2212}'),
             _ => push_char(out, levels, c),
         }
     }
@@ -226,6 +228,9 @@ mod tests {
         assert_eq!(n[2].text, "i");
         assert_eq!(n[2].levels, vec![-1]);
         assert_eq!(n[3].text, " _a");
+        let minus = parse_markup("cm^{-2} a-b");
+        assert_eq!(minus[1].text, "\u{2212}2");
+        assert_eq!(minus[2].text, " a-b");
         let nested = parse_markup("e^{x_{1}}");
         assert_eq!(nested[2].levels, vec![1, -1]);
         // Unicode scripts and Greek pass through as plain text.
