@@ -604,6 +604,14 @@ fn bad_scenes_are_errors_not_panics() {
     let mut fig = small_scene();
     fig.width_mm = 8.0;
     assert!(layout(&fig).is_err());
+    let mut fig = small_scene();
+    fig.panels[0].lines[1].style.width_pt = f64::NAN;
+    let e = layout(&fig).unwrap_err().to_string();
+    assert!(e.contains("line 2"), "{e}");
+    let mut fig = small_scene();
+    fig.panels[0].labels[0].size_pt = 0.0;
+    let e = layout(&fig).unwrap_err().to_string();
+    assert!(e.contains("label 1") && e.contains("font size"), "{e}");
 }
 
 /// Writes demo figures (86 mm and 178 mm wide) as PNG and PDF, and the PDFs rasterised, into

@@ -221,6 +221,7 @@ fn layout_panel(
     if let Some(t) = &p.right_axis {
         check_monotone(&t.map, ya, yb, "right axis")?;
     }
+    validate_styles(p)?;
     let mapping = match &p.heatmap {
         Some(hm) => {
             validate(hm)?;
@@ -594,6 +595,58 @@ fn layout_panel(
         }
     }
     Ok((placement.dropped, mapping))
+}
+
+/// Check the sizes in a panel's overlay styles: widths ≥ 0, dashes and sizes > 0, all finite.
+fn validate_styles(p: &Panel) -> Result<()> {
+    let ok_width = |w: f64| w.is_finite() && w >= 0.0;
+    let ok_size = |s: f64| s.is_finite() && s > 0.0 && s <= 200.0;
+    let check_line = |s: &LineStyle, what: String| {
+        if !ok_width(s.width_pt) || s.dash_pt.iter().any(|d| !ok_size(*d)) {
+            Err(Error::invalid(
+                what,
+                format!(
+                    "expected a finite width ≥ 0 pt and dash lengths > 0 pt, got {} pt, {:?}",
+                    s.width_pt, s.dash_pt
+                ),
+            ))
+        } else {
+            Ok(())
+        }
+    };
+    let check_marker = |m: &MarkerStyle, what: String| {
+        if ok_size(m.size_pt) {
+            Ok(())
+        } else {
+            Err(Error::invalid(
+                what,
+                format!("marker size must be 0…200 pt, got {}", m.size_pt),
+            ))
+        }
+    };
+    for (k, l) in p.lines.iter().enumerate() {
+        check_line(&l.style, format!("line {}", k + 1))?;
+    }
+    for (k, m) in p.markers.iter().enumerate() {
+        check_marker(&m.style, format!("marker set {}", k + 1))?;
+    }
+    for (k, l) in p.labels.iter().enumerate() {
+        if !(l.size_pt.is_finite() && l.size_pt >= 2.0 && l.size_pt <= 200.0) {
+            return Err(Error::invalid(
+                format!("label {} ({:?})", k + 1, l.text),
+                format!("font size must be 2…200 pt, got {}", l.size_pt),
+            ));
+        }
+    }
+    if let Some(lg) = &p.legend {
+        for (k, e) in lg.entries.iter().enumerate() {
+            match &e.swatch {
+                Swatch::Line(s) => check_line(s, format!("legend entry {}", k + 1))?,
+                Swatch::Marker(m) => check_marker(m, format!("legend entry {}", k + 1))?,
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Push a text item whose anchor point is a fraction `align` (0 start, 0.5 centre, 1 end) along
