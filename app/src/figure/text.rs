@@ -186,6 +186,9 @@ pub fn layout(markup: &str, size: f64) -> TextBlock {
 /// coverage bytes, row-major, top row first.
 pub type Glyph = Rc<(fontdue::Metrics, Vec<u8>)>;
 
+/// Glyphs kept per thread before the cache is emptied.
+const GLYPH_CACHE_LIMIT: usize = 8192;
+
 thread_local! {
     static GLYPHS: RefCell<HashMap<(char, u32), Glyph>> = RefCell::new(HashMap::new());
 }
@@ -194,8 +197,12 @@ thread_local! {
 pub fn glyph(c: char, px: f32) -> Glyph {
     let key = (c, (px * 64.0).round() as u32);
     GLYPHS.with(|g| {
-        g.borrow_mut()
-            .entry(key)
+        let mut g = g.borrow_mut();
+        // Continuous zooming creates new sizes every frame: keep the cache bounded.
+        if g.len() >= GLYPH_CACHE_LIMIT && !g.contains_key(&key) {
+            g.clear();
+        }
+        g.entry(key)
             .or_insert_with(|| Rc::new(font().rasterize(c, key.1 as f32 / 64.0)))
             .clone()
     })
@@ -204,6 +211,18 @@ pub fn glyph(c: char, px: f32) -> Glyph {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn glyph_cache_stays_bounded_and_returns_the_same_glyph() {
+        let a = glyph('x', 11.0);
+        let b = glyph('x', 11.0);
+        assert!(Rc::ptr_eq(&a, &b));
+        for k in 0..(GLYPH_CACHE_LIMIT + 100) {
+            glyph('.', 4.0 + k as f32 / 64.0);
+            let n = GLYPHS.with(|g| g.borrow().len());
+            assert!(n <= GLYPH_CACHE_LIMIT, "{n} glyphs cached");
+        }
+    }
 
     #[test]
     fn markup_sub_and_superscripts() {
