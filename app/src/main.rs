@@ -1,6 +1,7 @@
 //! fanmark: find, index and publish the gaps of Landau fans and Wannier diagrams.
 
 mod cmd;
+mod figure;
 mod progress;
 
 use clap::{Parser, Subcommand};

@@ -1,0 +1,358 @@
+//! Raster backend: draws the display list into a tiny-skia pixmap at the figure's DPI
+//! (anti-aliased vectors, heat map resampled at device resolution on the exact pixel grid of the
+//! plot rectangle) and encodes PNG with pHYs resolution metadata.
+
+use super::draw::{DisplayList, Item, Stroke};
+use super::geom::Rect;
+use super::heatmap::{self, ColorMapping};
+use super::layout::layout;
+use super::scene::{Figure, HeatMap};
+use super::text::{glyph, TextBlock};
+use fanmark_core::{Error, Result};
+use tiny_skia::{FillRule, Mask, Paint, PathBuilder, Pixmap, Transform};
+
+/// Pixel rectangle (x0, y0, x1, y1), half-open, that a page rectangle in pt covers at `scale`
+/// px/pt: edges rounded to whole pixels so a heat map fills it exactly.
+pub fn pixel_rect(r: &Rect, scale: f64) -> (i64, i64, i64, i64) {
+    (
+        (r.x0 * scale).round() as i64,
+        (r.y0 * scale).round() as i64,
+        (r.x1 * scale).round() as i64,
+        (r.y1 * scale).round() as i64,
+    )
+}
+
+/// The heat-map layer of one panel at device resolution: straight-alpha RGBA of
+/// `width`×`height` pixels covering the panel's axis ranges exactly. The viewer can cache it and
+/// redraw only the overlay.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
+pub fn heatmap_layer(
+    hm: &HeatMap,
+    mapping: &ColorMapping,
+    x_range: (f64, f64),
+    y_range: (f64, f64),
+    width: u32,
+    height: u32,
+) -> Vec<u8> {
+    heatmap::render_rgba(hm, mapping, x_range, (y_range.1, y_range.0), width, height)
+}
+
+/// Render the figure to a pixmap at its DPI (white background). This is the call a viewer makes
+/// each frame.
+#[allow(dead_code)] // Entry point for the figure command and the viewer.
+pub fn render_rgba(fig: &Figure) -> Result<Pixmap> {
+    let list = layout(fig)?;
+    draw_list(fig, &list)
+}
+
+/// Draw an already laid-out figure.
+pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
+    let (w, h) = fig.pixel_size();
+    let mut pm = Pixmap::new(w, h).ok_or_else(|| {
+        Error::invalid("figure", format!("cannot allocate a {w}×{h} pixel image"))
+    })?;
+    pm.fill(tiny_skia::Color::WHITE);
+    let scale = w as f64 / list.width;
+    let mut masks: Vec<(Rect, Mask)> = Vec::new();
+    for item in &list.items {
+        match item {
+            Item::HeatMap { panel, rect } => {
+                let p = &fig.panels[*panel];
+                let (Some(hm), Some(m)) = (&p.heatmap, list.mappings[*panel]) else {
+                    continue;
+                };
+                let (x0, y0, x1, y1) = pixel_rect(rect, scale);
+                let (pw, ph) = ((x1 - x0).max(0) as u32, (y1 - y0).max(0) as u32);
+                let img = heatmap_layer(hm, &m, p.x_axis.range, p.y_axis.range, pw, ph);
+                blit_opaque(&mut pm, &img, x0, y0, pw, ph);
+            }
+            Item::ColorStrip { panel, rect } => {
+                let Some(hm) = &fig.panels[*panel].heatmap else {
+                    continue;
+                };
+                let (x0, y0, x1, y1) = pixel_rect(rect, scale);
+                let (pw, ph) = ((x1 - x0).max(0) as u32, (y1 - y0).max(0) as u32);
+                let img = strip_rgba(&hm.colors, pw, ph);
+                blit_opaque(&mut pm, &img, x0, y0, pw, ph);
+            }
+            Item::Path {
+                points,
+                closed,
+                fill,
+                stroke,
+                clip,
+            } => {
+                let mask = clip.map(|c| {
+                    if let Some(i) = masks.iter().position(|(r, _)| *r == c) {
+                        i
+                    } else {
+                        masks.push((c, rect_mask(&c, scale, w, h)));
+                        masks.len() - 1
+                    }
+                });
+                let mask = mask.map(|i| &masks[i].1);
+                draw_path(
+                    &mut pm,
+                    points,
+                    *closed,
+                    *fill,
+                    stroke.as_ref(),
+                    scale,
+                    mask,
+                );
+            }
+            Item::Text {
+                block,
+                x,
+                y,
+                vertical,
+                color,
+            } => draw_text(
+                &mut pm,
+                block,
+                *x * scale,
+                *y * scale,
+                scale,
+                *vertical,
+                *color,
+            ),
+        }
+    }
+    Ok(pm)
+}
+
+fn rect_mask(c: &Rect, scale: f64, w: u32, h: u32) -> Mask {
+    let mut m = Mask::new(w, h).expect("mask of the pixmap's own positive size");
+    let (x0, y0, x1, y1) = pixel_rect(c, scale);
+    if let Some(r) = tiny_skia::Rect::from_ltrb(x0 as f32, y0 as f32, x1 as f32, y1 as f32) {
+        let path = PathBuilder::from_rect(r);
+        m.fill_path(&path, FillRule::Winding, false, Transform::identity());
+    }
+    m
+}
+
+/// The colour table as a vertical strip, low end at the bottom.
+pub fn strip_rgba(colors: &[[u8; 3]], width: u32, height: u32) -> Vec<u8> {
+    let mut out = Vec::with_capacity((width * height * 4) as usize);
+    for r in 0..height {
+        let t = 1.0 - (r as f64 + 0.5) / height as f64;
+        let c = colors[((t * (colors.len() - 1) as f64).round() as usize).min(colors.len() - 1)];
+        for _ in 0..width {
+            out.extend_from_slice(&[c[0], c[1], c[2], 255]);
+        }
+    }
+    out
+}
+
+/// Copy straight-alpha RGBA whose alpha is 0 or 255 into the pixmap at (x0, y0).
+fn blit_opaque(pm: &mut Pixmap, img: &[u8], x0: i64, y0: i64, w: u32, h: u32) {
+    let (pw, ph) = (pm.width() as i64, pm.height() as i64);
+    let data = pm.data_mut();
+    for r in 0..h as i64 {
+        let y = y0 + r;
+        if y < 0 || y >= ph {
+            continue;
+        }
+        for c in 0..w as i64 {
+            let x = x0 + c;
+            if x < 0 || x >= pw {
+                continue;
+            }
+            let s = ((r * w as i64 + c) * 4) as usize;
+            if img[s + 3] == 0 {
+                continue;
+            }
+            let d = ((y * pw + x) * 4) as usize;
+            data[d..d + 4].copy_from_slice(&img[s..s + 4]);
+        }
+    }
+}
+
+fn draw_path(
+    pm: &mut Pixmap,
+    points: &[(f64, f64)],
+    closed: bool,
+    fill: Option<[u8; 3]>,
+    stroke: Option<&Stroke>,
+    scale: f64,
+    mask: Option<&Mask>,
+) {
+    if points.len() < 2 {
+        return;
+    }
+    let mut pb = PathBuilder::new();
+    pb.move_to((points[0].0 * scale) as f32, (points[0].1 * scale) as f32);
+    for p in &points[1..] {
+        pb.line_to((p.0 * scale) as f32, (p.1 * scale) as f32);
+    }
+    if closed {
+        pb.close();
+    }
+    let Some(path) = pb.finish() else { return };
+    let mut paint = Paint {
+        anti_alias: true,
+        ..Paint::default()
+    };
+    if let Some(c) = fill {
+        paint.set_color_rgba8(c[0], c[1], c[2], 255);
+        pm.fill_path(
+            &path,
+            &paint,
+            FillRule::Winding,
+            Transform::identity(),
+            mask,
+        );
+    }
+    if let Some(s) = stroke {
+        paint.set_color_rgba8(s.color[0], s.color[1], s.color[2], 255);
+        let mut st = tiny_skia::Stroke {
+            width: (s.width * scale) as f32,
+            line_join: tiny_skia::LineJoin::Round,
+            line_cap: tiny_skia::LineCap::Butt,
+            ..tiny_skia::Stroke::default()
+        };
+        if !s.dash.is_empty() {
+            let d: Vec<f32> = s.dash.iter().map(|v| (v * scale) as f32).collect();
+            st.dash = tiny_skia::StrokeDash::new(d, 0.0);
+        }
+        pm.stroke_path(&path, &paint, &st, Transform::identity(), mask);
+    }
+}
+
+/// Draw text with its baseline starting at (x, y) px; `vertical` reads upwards.
+fn draw_text(
+    pm: &mut Pixmap,
+    block: &TextBlock,
+    x: f64,
+    y: f64,
+    scale: f64,
+    vertical: bool,
+    color: [u8; 3],
+) {
+    let (pw, ph) = (pm.width() as i64, pm.height() as i64);
+    let data = pm.data_mut();
+    for span in &block.spans {
+        let px = (span.size * scale) as f32;
+        let mut pen = span.dx * scale;
+        let base = span.dy * scale;
+        for c in span.text.chars() {
+            let g = glyph(c, px);
+            let (m, cov) = (&g.0, &g.1);
+            // Glyph box in the text frame (u along the baseline, v downwards).
+            let u0 = pen.round() as i64 + m.xmin as i64;
+            let v0 = base.round() as i64 - m.ymin as i64 - m.height as i64;
+            let (ox, oy) = (x.round() as i64, y.round() as i64);
+            for gy in 0..m.height {
+                for gx in 0..m.width {
+                    let a = cov[gy * m.width + gx] as u32;
+                    if a == 0 {
+                        continue;
+                    }
+                    let (u, v) = (u0 + gx as i64, v0 + gy as i64);
+                    let (dx, dy) = if vertical {
+                        (ox + v, oy - u)
+                    } else {
+                        (ox + u, oy + v)
+                    };
+                    if dx < 0 || dy < 0 || dx >= pw || dy >= ph {
+                        continue;
+                    }
+                    let d = ((dy * pw + dx) * 4) as usize;
+                    for k in 0..3 {
+                        let src = color[k] as u32 * a;
+                        data[d + k] = ((src + data[d + k] as u32 * (255 - a)) / 255) as u8;
+                    }
+                    data[d + 3] = ((255 * a + data[d + 3] as u32 * (255 - a)) / 255) as u8;
+                }
+            }
+            pen += m.advance_width as f64;
+        }
+    }
+}
+
+/// Encode a pixmap as PNG (8-bit RGBA) with a pHYs chunk giving `dpi`.
+pub fn encode_png(pm: &Pixmap, dpi: f64) -> Result<Vec<u8>> {
+    let mut rgba = Vec::with_capacity(pm.data().len());
+    for p in pm.pixels() {
+        let c = p.demultiply();
+        rgba.extend_from_slice(&[c.red(), c.green(), c.blue(), c.alpha()]);
+    }
+    let mut png = Vec::new();
+    {
+        use image::ImageEncoder;
+        let enc = image::codecs::png::PngEncoder::new(&mut png);
+        enc.write_image(
+            &rgba,
+            pm.width(),
+            pm.height(),
+            image::ExtendedColorType::Rgba8,
+        )
+        .map_err(|e| Error::invalid("PNG encoding", e.to_string()))?;
+    }
+    Ok(insert_phys(&png, dpi))
+}
+
+/// Insert a pHYs chunk (pixels per metre, unit = metre) right after IHDR.
+fn insert_phys(png: &[u8], dpi: f64) -> Vec<u8> {
+    let ppm = (dpi / 0.0254).round() as u32;
+    let mut data = Vec::with_capacity(9);
+    data.extend_from_slice(&ppm.to_be_bytes());
+    data.extend_from_slice(&ppm.to_be_bytes());
+    data.push(1);
+    let mut chunk = Vec::with_capacity(21);
+    chunk.extend_from_slice(&9u32.to_be_bytes());
+    let mut typed = b"pHYs".to_vec();
+    typed.extend_from_slice(&data);
+    chunk.extend_from_slice(&typed);
+    chunk.extend_from_slice(&crc32(&typed).to_be_bytes());
+    // Signature (8) + IHDR chunk (4 length + 4 type + 13 data + 4 CRC).
+    let at = 8 + 25;
+    let mut out = Vec::with_capacity(png.len() + chunk.len());
+    out.extend_from_slice(&png[..at]);
+    out.extend_from_slice(&chunk);
+    out.extend_from_slice(&png[at..]);
+    out
+}
+
+/// CRC-32 as PNG defines it (polynomial 0xEDB88320, reflected).
+fn crc32(bytes: &[u8]) -> u32 {
+    let mut c = 0xFFFF_FFFFu32;
+    for &b in bytes {
+        c ^= b as u32;
+        for _ in 0..8 {
+            c = if c & 1 != 0 {
+                0xEDB8_8320 ^ (c >> 1)
+            } else {
+                c >> 1
+            };
+        }
+    }
+    c ^ 0xFFFF_FFFF
+}
+
+/// Render the figure and return PNG bytes with the figure's DPI recorded.
+pub fn png_bytes(fig: &Figure) -> Result<Vec<u8>> {
+    encode_png(&render_rgba(fig)?, fig.dpi)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn crc_matches_the_png_specification_check_value() {
+        // CRC-32 of "123456789" is 0xCBF43926 (the standard check value for this CRC).
+        assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
+        // The IEND chunk's CRC over its type is the well-known AE 42 60 82.
+        assert_eq!(crc32(b"IEND"), 0xAE42_6082);
+    }
+
+    #[test]
+    fn strip_runs_from_high_at_top_to_low_at_bottom() {
+        let colors: Vec<[u8; 3]> = (0..256).map(|i| [i as u8, 0, 255 - i as u8]).collect();
+        let s = strip_rgba(&colors, 2, 256);
+        assert_eq!(&s[0..4], &[255, 0, 0, 255]);
+        let last = s.len() - 4;
+        assert_eq!(&s[last..], &[0, 0, 255, 255]);
+    }
+}
