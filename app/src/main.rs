@@ -29,6 +29,12 @@ enum Command {
     Lines(cmd::lines::Args),
     /// List the built-in heat-map palettes and overlay colours, or write them as files.
     Palettes(cmd::palettes::Args),
+    /// Shubnikov–de Haas frequency, density and Berry phase of a trace at fixed gate or density.
+    Sdh(cmd::sdh::Args),
+    /// Activation gap of a state from maps at several temperatures.
+    Gaps(cmd::gaps::Args),
+    /// Resample a dual-gate map onto (n, D/ε₀), with constant-ν lines and line cuts.
+    Dualgate(cmd::dualgate::Args),
 }
 
 fn main() -> ExitCode {
@@ -39,6 +45,9 @@ fn main() -> ExitCode {
         Command::Demo(a) => cmd::demo::run(a),
         Command::Lines(a) => cmd::lines::run(a),
         Command::Palettes(a) => cmd::palettes::run(a),
+        Command::Sdh(a) => cmd::sdh::run(a),
+        Command::Gaps(a) => cmd::gaps::run(a),
+        Command::Dualgate(a) => cmd::dualgate::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

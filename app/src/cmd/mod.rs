@@ -1,8 +1,11 @@
 //! One module per subcommand: its clap arguments and its `run`.
 
 pub mod demo;
+pub mod dualgate;
+pub mod gaps;
 pub mod inspect;
 pub mod lines;
 pub mod load_args;
 pub mod palettes;
+pub mod sdh;
 pub mod synth;
