@@ -34,6 +34,12 @@ enum Command {
     Calibrate(cmd::calibrate::Args),
     /// Find and index every gap: states with (t, s), score, onset and Hall check.
     Index(cmd::index::Args),
+    /// Shubnikov–de Haas frequency, density and Berry phase of a trace at fixed gate or density.
+    Sdh(cmd::sdh::Args),
+    /// Activation gap of a state from maps at several temperatures.
+    Gaps(cmd::gaps::Args),
+    /// Resample a dual-gate map onto (n, D/ε₀), with constant-ν lines and line cuts.
+    Dualgate(cmd::dualgate::Args),
 }
 
 fn main() -> ExitCode {
@@ -46,6 +52,9 @@ fn main() -> ExitCode {
         Command::Palettes(a) => cmd::palettes::run(a),
         Command::Calibrate(a) => cmd::calibrate::run(a),
         Command::Index(a) => cmd::index::run(a),
+        Command::Sdh(a) => cmd::sdh::run(a),
+        Command::Gaps(a) => cmd::gaps::run(a),
+        Command::Dualgate(a) => cmd::dualgate::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -24,14 +24,18 @@ pub mod units;
 // Physics core.
 pub mod conductivity;
 pub mod derived;
+pub mod dualgate;
 pub mod families;
 pub mod filling;
+pub mod fit;
+pub mod gaps;
 pub mod gate;
 pub mod hofstadter;
 pub mod index;
 pub mod line;
 pub mod moire;
 pub mod savgol;
+pub mod sdh;
 pub mod symmetrize;
 pub mod transform;
 

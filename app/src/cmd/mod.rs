@@ -2,9 +2,12 @@
 
 pub mod calibrate;
 pub mod demo;
+pub mod dualgate;
+pub mod gaps;
 pub mod index;
 pub mod inspect;
 pub mod lines;
 pub mod load_args;
 pub mod palettes;
+pub mod sdh;
 pub mod synth;

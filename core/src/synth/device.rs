@@ -1,8 +1,9 @@
 //! The devices of the project's own fictitious lab, the Skerry Bay cryogenic transport lab:
 //! their stacks, gates, geometry and the parameters of the transport model.
 
-use crate::constants::{ELEMENTARY_CHARGE, EPSILON_0, FLUX_QUANTUM_H_OVER_E};
 use crate::error::{Error, Result};
+use crate::gate::SingleGate;
+use crate::moire;
 use serde::{Deserialize, Serialize};
 use std::fmt;
 use std::str::FromStr;
@@ -10,8 +11,8 @@ use std::str::FromStr;
 /// Name of the invented lab the demo devices belong to.
 pub const LAB_NAME: &str = "Skerry Bay cryogenic transport lab";
 
-/// Graphene lattice constant a in m (0.246 nm).
-pub const GRAPHENE_LATTICE_M: f64 = 0.246e-9;
+pub use crate::gate::Dielectric;
+pub use crate::moire::GRAPHENE_LATTICE_M;
 
 /// The synthetic devices fanmark can generate.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, Serialize, Deserialize)]
@@ -61,7 +62,8 @@ impl FromStr for DeviceName {
     }
 }
 
-/// The moiré superlattice of a graphene/hBN device.
+/// The moiré superlattice of a graphene/hBN device, described by how the stack was made; the
+/// geometry itself is [`crate::moire`]'s.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Moire {
     /// Lattice mismatch δ between hBN and graphene (dimensionless, e.g. 0.018).
@@ -73,40 +75,26 @@ pub struct Moire {
 }
 
 impl Moire {
+    /// The superlattice cell; NaN wavelength if the parameters give no moiré pattern.
+    pub fn cell(&self) -> moire::Moire {
+        moire::Moire::graphene_hbn(self.twist_deg, self.lattice_m, self.mismatch)
+            .unwrap_or(moire::Moire { lambda_m: f64::NAN })
+    }
     /// Moiré wavelength λ in m: λ = (1+δ)a/√(2(1+δ)(1−cos θ)+δ²).
     pub fn wavelength_m(&self) -> f64 {
-        let d = self.mismatch;
-        let th = self.twist_deg.to_radians();
-        (1.0 + d) * self.lattice_m / (2.0 * (1.0 + d) * (1.0 - th.cos()) + d * d).sqrt()
+        self.cell().lambda_m
     }
     /// Moiré cell area A = (√3/2)λ² in m².
     pub fn cell_area_m2(&self) -> f64 {
-        let l = self.wavelength_m();
-        0.75f64.sqrt() * l * l
+        self.cell().area_m2()
     }
     /// One carrier per moiré cell, n₀ = 1/A, in m⁻² (full filling of a four-fold band: 4n₀).
     pub fn n0_m2(&self) -> f64 {
-        1.0 / self.cell_area_m2()
+        self.cell().n0_m2()
     }
     /// Field of one flux quantum h/e per moiré cell, φ₀/A, in T.
     pub fn one_flux_field_t(&self) -> f64 {
-        FLUX_QUANTUM_H_OVER_E / self.cell_area_m2()
-    }
-}
-
-/// A gate dielectric: parallel-plate lever arm α = ε₀ε_r/(e d).
-#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
-pub struct Dielectric {
-    /// Relative permittivity ε_r.
-    pub epsilon_r: f64,
-    /// Thickness d in m.
-    pub thickness_m: f64,
-}
-
-impl Dielectric {
-    /// Density per volt α = ε₀ε_r/(e d), in m⁻² V⁻¹.
-    pub fn alpha_m2_per_v(&self) -> f64 {
-        EPSILON_0 * self.epsilon_r / (ELEMENTARY_CHARGE * self.thickness_m)
+        self.cell().one_flux_field_t()
     }
 }
 
@@ -211,17 +199,25 @@ impl Device {
         }
     }
 
+    /// The device's gate: geometric lever arm of its dielectric and its V_CNP (NaN lever arm if
+    /// the dielectric is unphysical).
+    pub fn gate(&self) -> SingleGate {
+        SingleGate::from_geometry(&self.dielectric, self.v_cnp).unwrap_or(SingleGate {
+            alpha_m2_per_v: f64::NAN,
+            v_cnp: self.v_cnp,
+        })
+    }
     /// Density per volt α of the gate, m⁻² V⁻¹.
     pub fn alpha_m2_per_v(&self) -> f64 {
-        self.dielectric.alpha_m2_per_v()
+        self.gate().alpha_m2_per_v
     }
     /// Carrier density n = α(V_g − V_CNP) in m⁻².
     pub fn density(&self, vg: f64) -> f64 {
-        self.alpha_m2_per_v() * (vg - self.v_cnp)
+        self.gate().density(vg)
     }
     /// Gate voltage (V) at which the density is `n` (m⁻²).
     pub fn gate_for_density(&self, n: f64) -> f64 {
-        self.v_cnp + n / self.alpha_m2_per_v()
+        self.gate().gate_for_density(n)
     }
     /// n₀ = 1/A in m⁻², or 0 for a device without a superlattice.
     pub fn n0_m2(&self) -> f64 {

@@ -34,9 +34,11 @@
 
 pub mod config;
 pub mod device;
+pub mod dualgate;
 pub mod flaws;
 pub mod model;
 pub mod rng;
+pub mod series;
 pub mod states;
 pub mod truth;
 
