@@ -89,8 +89,11 @@ fn moire_device_is_indexed_with_n0() {
 
 fn map_of(rxx: Array2<f64>, gate: (f64, f64), field: (f64, f64)) -> Map {
     let (rows, cols) = rxx.dim();
-    let x = Axis::uniform("vg", Quantity::Gate, gate.0, gate.1, cols).unwrap();
-    let y = Axis::uniform("b", Quantity::Field, field.0, field.1, rows).unwrap();
+    // Axis::uniform takes (start, step, count).
+    let dx = (gate.1 - gate.0) / (cols - 1) as f64;
+    let dy = (field.1 - field.0) / (rows - 1) as f64;
+    let x = Axis::uniform("vg", Quantity::Gate, gate.0, dx, cols).unwrap();
+    let y = Axis::uniform("b", Quantity::Field, field.0, dy, rows).unwrap();
     let mut m = Map::new(x, y);
     m.add_channel(Channel::new("rxx", ChannelKind::Rxx, rxx))
         .unwrap();
@@ -128,6 +131,7 @@ fn given_calibration() -> fanmark_core::index::calibrate::Calibration {
 
 #[test]
 fn pure_noise_gives_no_fractional_or_wannier_states() {
+    // Searched as a moiré device: the superlattice search must not invent n₀ in noise.
     let (rows, cols) = (120, 400);
     let z = noise(7, rows * cols);
     let rxx = Array2::from_shape_fn((rows, cols), |(i, j)| 1000.0 + 20.0 * z[i * cols + j]);
@@ -135,6 +139,7 @@ fn pure_noise_gives_no_fractional_or_wannier_states() {
     let mut o = IndexOptions::new(Stack::MonolayerMoire);
     o.calibration = Some(given_calibration());
     let rep = index_map(&map, &o).unwrap();
+    assert!(rep.moire.is_none(), "n₀ in noise: {:?}", rep.moire);
     assert!(
         rep.states
             .iter()
@@ -150,7 +155,6 @@ fn pure_noise_gives_no_fractional_or_wannier_states() {
 }
 
 #[test]
-#[ignore = "known failure: the moiré search still finds a spurious n₀ on a single fan"]
 fn a_single_fan_gives_integers_only() {
     // Minima of R_xx along ν = ±2, ±6, ±10 (gate model α = 7.5×10¹⁰ cm⁻²/V, V_CNP = 0).
     let (rows, cols) = (100, 500);
@@ -172,7 +176,13 @@ fn a_single_fan_gives_integers_only() {
     let mut o = IndexOptions::new(Stack::MonolayerMoire);
     o.calibration = Some(given_calibration());
     let rep = index_map(&map, &o).unwrap();
-    assert!(rep.states.iter().any(|s| s.t == r(2, 1) && s.s.is_zero()));
+    assert!(rep.moire.is_none(), "fake superlattice {:?}", rep.moire);
+    for nu in [2, 6, 10, -2, -6, -10] {
+        assert!(
+            rep.states.iter().any(|s| s.t == r(nu, 1) && s.s.is_zero()),
+            "ν = {nu} not found"
+        );
+    }
     assert!(
         rep.states
             .iter()
@@ -246,4 +256,23 @@ fn geometric_lever_arm_of_285_nm_oxide() {
     })
     .unwrap();
     assert!((e.alpha_cm2_per_v / 7.562_37e10 - 1.0).abs() < 1e-5);
+}
+
+#[test]
+fn a_device_without_superlattice_searched_as_moire_gets_no_n0() {
+    // The monolayer device has no moiré cell: searching it for one must find none and report
+    // no Wannier states, on several varied measurements.
+    for seed in [1, 2, 3] {
+        let s = generate(&SynthConfig::varied(DeviceName::Wren, seed)).unwrap();
+        assert!(s.truth.n0_cm2.is_none());
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+        assert!(rep.moire.is_none(), "seed {seed}: fake n₀ {:?}", rep.moire);
+        assert!(rep.brown_zak.is_empty(), "seed {seed}");
+        assert!(
+            rep.states.iter().all(|x| x.kind != StateClass::Wannier),
+            "seed {seed}"
+        );
+        assert!(rep.states.iter().any(|x| x.t == r(2, 1) && x.s.is_zero()));
+    }
 }
