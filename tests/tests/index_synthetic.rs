@@ -276,3 +276,60 @@ fn a_device_without_superlattice_searched_as_moire_gets_no_n0() {
         assert!(rep.states.iter().any(|x| x.t == r(2, 1) && x.s.is_zero()));
     }
 }
+
+#[test]
+fn hall_slope_and_quantum_hall_calibrations_agree_within_uncertainties() {
+    use fanmark_core::index::calibrate::{from_hall_slope, from_quantum_hall};
+    use fanmark_core::index::features::{find_minima, gap_map, GapMapOptions};
+    let mut compared = 0;
+    for (dev, seed, stack) in [
+        (DeviceName::Wren, 1, Stack::Monolayer),
+        (DeviceName::Wren, 2, Stack::Monolayer),
+        (DeviceName::Wren, 3, Stack::Monolayer),
+        (DeviceName::Wren, 4, Stack::Monolayer),
+        (DeviceName::Wren, 5, Stack::Monolayer),
+    ] {
+        let s = generate(&SynthConfig::varied(dev, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let gap = gap_map(&map, &GapMapOptions::default()).unwrap();
+        let minima = find_minima(&map, &gap, 3.0);
+        let mut notes = Vec::new();
+        let (Some(b), Some(a)) = (
+            from_quantum_hall(&map, &minima, stack, None, &mut notes),
+            from_hall_slope(&map, None),
+        ) else {
+            continue;
+        };
+        compared += 1;
+        // Agreement at three combined standard uncertainties (common practice for a
+        // consistency check of two independent estimates).
+        let sa = a.alpha_sigma_cm2_per_v.hypot(b.alpha_sigma_cm2_per_v);
+        let da = (a.alpha_cm2_per_v - b.alpha_cm2_per_v).abs();
+        assert!(
+            da <= 3.0 * sa,
+            "{dev} {seed}: α {} vs {} (σ {sa})",
+            a.alpha_cm2_per_v,
+            b.alpha_cm2_per_v
+        );
+        let (va, vb) = (a.v_cnp_v.unwrap(), b.v_cnp_v.unwrap());
+        let sv = a.v_cnp_sigma_v.unwrap().hypot(b.v_cnp_sigma_v.unwrap());
+        assert!(
+            (va - vb).abs() <= 3.0 * sv,
+            "{dev} {seed}: V_CNP {va} vs {vb} (σ {sv})"
+        );
+        // Each uncertainty is honest against the truth too.
+        for e in [a, b] {
+            let d = (e.alpha_cm2_per_v - s.truth.alpha_cm2_per_v).abs();
+            assert!(
+                d <= 3.0 * e.alpha_sigma_cm2_per_v,
+                "{dev} {seed} {:?}: α off by {d} with σ {}",
+                e.method,
+                e.alpha_sigma_cm2_per_v
+            );
+        }
+        // The quantum Hall uncertainty is not the naive one of thousands of points: at least
+        // 10⁻⁴ relative on these maps.
+        assert!(b.alpha_sigma_cm2_per_v / b.alpha_cm2_per_v > 1e-4);
+    }
+    assert!(compared >= 4, "only {compared} maps had both methods");
+}
