@@ -333,3 +333,44 @@ fn hall_slope_and_quantum_hall_calibrations_agree_within_uncertainties() {
     }
     assert!(compared >= 4, "only {compared} maps had both methods");
 }
+
+#[test]
+fn hall_plateaus_confirm_states_and_a_wrong_hall_scale_contradicts_them() {
+    use fanmark_core::index::run::HALL_CONTRADICTION_CONFIDENCE;
+    let s = generate(&SynthConfig::varied(DeviceName::Wren, 2)).unwrap();
+    let map = synthetic::synthesis_map(&s).unwrap();
+    let rep = index_map(&map, &IndexOptions::new(Stack::Monolayer)).unwrap();
+    // On a quantum Hall plateau σ_xy = ν e²/h (von Klitzing): ν = ±2, ±6 agree.
+    for nu in [2, -2, 6, -6] {
+        let st = rep
+            .states
+            .iter()
+            .find(|x| x.t == r(nu, 1) && x.s.is_zero())
+            .unwrap_or_else(|| panic!("ν = {nu} not found"));
+        let h = st.hall_check.as_ref().expect("the map has R_xy");
+        assert_eq!(h.verdict, "agrees", "ν = {nu}: {h:?}");
+        assert!(h.plateau_rows >= 3);
+        assert!((h.sigma_xy_e2h - nu as f64).abs() < 0.2, "{h:?}");
+        assert_eq!(st.confidence, 1.0);
+    }
+    // R_xy halved (a wrong amplifier gain): the plateaus sit at σ_xy ≈ 2ν, which contradicts
+    // every ν found from R_xx; the states are kept, flagged and trusted less.
+    let mut bad = map.clone();
+    let mut c = map.channel_of(ChannelKind::Rxy).unwrap().clone();
+    c.data.mapv_inplace(|v| 0.5 * v);
+    bad.set_channel(c).unwrap();
+    let mut o = IndexOptions::new(Stack::Monolayer);
+    o.calibration = Some(rep.calibration.clone());
+    let rb = index_map(&bad, &o).unwrap();
+    for nu in [2, -2] {
+        let st = rb
+            .states
+            .iter()
+            .find(|x| x.t == r(nu, 1) && x.s.is_zero())
+            .unwrap_or_else(|| panic!("ν = {nu} not found"));
+        let h = st.hall_check.as_ref().unwrap();
+        assert_eq!(h.verdict, "contradicts", "ν = {nu}: {h:?}");
+        assert!(st.flags.iter().any(|f| f == "hall_contradiction"));
+        assert_eq!(st.confidence, HALL_CONTRADICTION_CONFIDENCE);
+    }
+}
