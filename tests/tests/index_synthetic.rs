@@ -374,3 +374,39 @@ fn hall_plateaus_confirm_states_and_a_wrong_hall_scale_contradicts_them() {
         assert_eq!(st.confidence, HALL_CONTRADICTION_CONFIDENCE);
     }
 }
+
+#[test]
+fn brown_zak_fields_are_found_as_horizontal_features() {
+    // B_q = φ₀ n₀ / q with φ₀ = h/e (check-values §1): the truth lists these fields.
+    let (mut found, mut expected) = (0, 0);
+    for seed in [6, 8, 9, 10] {
+        let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+        let truth: Vec<_> = s
+            .truth
+            .states
+            .iter()
+            .filter(|x| x.b_t.is_some() && x.visible)
+            .collect();
+        expected += truth.len();
+        for bz in &rep.brown_zak {
+            let t = truth
+                .iter()
+                .find(|x| x.phi_over_phi0 == Some(bz.phi_over_phi0))
+                .unwrap_or_else(|| panic!("seed {seed}: no Brown–Zak field {}", bz.phi_over_phi0));
+            let bt = t.b_t.unwrap();
+            // n₀ is known to ~2 %, so is B_q.
+            assert!(
+                (bz.b_t / bt - 1.0).abs() < 0.03,
+                "seed {seed}: {} T vs {bt} T",
+                bz.b_t
+            );
+            found += 1;
+        }
+    }
+    assert!(
+        found as f64 >= 0.6 * expected as f64,
+        "found {found} of {expected} Brown–Zak fields"
+    );
+}
