@@ -89,8 +89,11 @@ fn moire_device_is_indexed_with_n0() {
 
 fn map_of(rxx: Array2<f64>, gate: (f64, f64), field: (f64, f64)) -> Map {
     let (rows, cols) = rxx.dim();
-    let x = Axis::uniform("vg", Quantity::Gate, gate.0, gate.1, cols).unwrap();
-    let y = Axis::uniform("b", Quantity::Field, field.0, field.1, rows).unwrap();
+    // Axis::uniform takes (start, step, count).
+    let dx = (gate.1 - gate.0) / (cols - 1) as f64;
+    let dy = (field.1 - field.0) / (rows - 1) as f64;
+    let x = Axis::uniform("vg", Quantity::Gate, gate.0, dx, cols).unwrap();
+    let y = Axis::uniform("b", Quantity::Field, field.0, dy, rows).unwrap();
     let mut m = Map::new(x, y);
     m.add_channel(Channel::new("rxx", ChannelKind::Rxx, rxx))
         .unwrap();
@@ -128,6 +131,7 @@ fn given_calibration() -> fanmark_core::index::calibrate::Calibration {
 
 #[test]
 fn pure_noise_gives_no_fractional_or_wannier_states() {
+    // Searched as a moiré device: the superlattice search must not invent n₀ in noise.
     let (rows, cols) = (120, 400);
     let z = noise(7, rows * cols);
     let rxx = Array2::from_shape_fn((rows, cols), |(i, j)| 1000.0 + 20.0 * z[i * cols + j]);
@@ -135,6 +139,7 @@ fn pure_noise_gives_no_fractional_or_wannier_states() {
     let mut o = IndexOptions::new(Stack::MonolayerMoire);
     o.calibration = Some(given_calibration());
     let rep = index_map(&map, &o).unwrap();
+    assert!(rep.moire.is_none(), "n₀ in noise: {:?}", rep.moire);
     assert!(
         rep.states
             .iter()
@@ -150,7 +155,6 @@ fn pure_noise_gives_no_fractional_or_wannier_states() {
 }
 
 #[test]
-#[ignore = "known failure: the moiré search still finds a spurious n₀ on a single fan"]
 fn a_single_fan_gives_integers_only() {
     // Minima of R_xx along ν = ±2, ±6, ±10 (gate model α = 7.5×10¹⁰ cm⁻²/V, V_CNP = 0).
     let (rows, cols) = (100, 500);
@@ -172,7 +176,13 @@ fn a_single_fan_gives_integers_only() {
     let mut o = IndexOptions::new(Stack::MonolayerMoire);
     o.calibration = Some(given_calibration());
     let rep = index_map(&map, &o).unwrap();
-    assert!(rep.states.iter().any(|s| s.t == r(2, 1) && s.s.is_zero()));
+    assert!(rep.moire.is_none(), "fake superlattice {:?}", rep.moire);
+    for nu in [2, 6, 10, -2, -6, -10] {
+        assert!(
+            rep.states.iter().any(|s| s.t == r(nu, 1) && s.s.is_zero()),
+            "ν = {nu} not found"
+        );
+    }
     assert!(
         rep.states
             .iter()
@@ -246,4 +256,198 @@ fn geometric_lever_arm_of_285_nm_oxide() {
     })
     .unwrap();
     assert!((e.alpha_cm2_per_v / 7.562_37e10 - 1.0).abs() < 1e-5);
+}
+
+#[test]
+fn a_device_without_superlattice_searched_as_moire_gets_no_n0() {
+    // The monolayer device has no moiré cell: searching it for one must find none and report
+    // no Wannier states, on several varied measurements.
+    for seed in [1, 2, 3] {
+        let s = generate(&SynthConfig::varied(DeviceName::Wren, seed)).unwrap();
+        assert!(s.truth.n0_cm2.is_none());
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+        assert!(rep.moire.is_none(), "seed {seed}: fake n₀ {:?}", rep.moire);
+        assert!(rep.brown_zak.is_empty(), "seed {seed}");
+        assert!(
+            rep.states.iter().all(|x| x.kind != StateClass::Wannier),
+            "seed {seed}"
+        );
+        assert!(rep.states.iter().any(|x| x.t == r(2, 1) && x.s.is_zero()));
+    }
+}
+
+#[test]
+fn hall_slope_and_quantum_hall_calibrations_agree_within_uncertainties() {
+    use fanmark_core::index::calibrate::{from_hall_slope, from_quantum_hall};
+    use fanmark_core::index::features::{find_minima, gap_map, GapMapOptions};
+    let mut compared = 0;
+    for (dev, seed, stack) in [
+        (DeviceName::Wren, 1, Stack::Monolayer),
+        (DeviceName::Wren, 2, Stack::Monolayer),
+        (DeviceName::Wren, 3, Stack::Monolayer),
+        (DeviceName::Wren, 4, Stack::Monolayer),
+        (DeviceName::Wren, 5, Stack::Monolayer),
+    ] {
+        let s = generate(&SynthConfig::varied(dev, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let gap = gap_map(&map, &GapMapOptions::default()).unwrap();
+        let minima = find_minima(&map, &gap, 3.0);
+        let mut notes = Vec::new();
+        let (Some(b), Some(a)) = (
+            from_quantum_hall(&map, &minima, stack, None, &mut notes),
+            from_hall_slope(&map, None),
+        ) else {
+            continue;
+        };
+        compared += 1;
+        // Agreement at three combined standard uncertainties (common practice for a
+        // consistency check of two independent estimates).
+        let sa = a.alpha_sigma_cm2_per_v.hypot(b.alpha_sigma_cm2_per_v);
+        let da = (a.alpha_cm2_per_v - b.alpha_cm2_per_v).abs();
+        assert!(
+            da <= 3.0 * sa,
+            "{dev} {seed}: α {} vs {} (σ {sa})",
+            a.alpha_cm2_per_v,
+            b.alpha_cm2_per_v
+        );
+        let (va, vb) = (a.v_cnp_v.unwrap(), b.v_cnp_v.unwrap());
+        let sv = a.v_cnp_sigma_v.unwrap().hypot(b.v_cnp_sigma_v.unwrap());
+        assert!(
+            (va - vb).abs() <= 3.0 * sv,
+            "{dev} {seed}: V_CNP {va} vs {vb} (σ {sv})"
+        );
+        // Each uncertainty is honest against the truth too.
+        for e in [a, b] {
+            let d = (e.alpha_cm2_per_v - s.truth.alpha_cm2_per_v).abs();
+            assert!(
+                d <= 3.0 * e.alpha_sigma_cm2_per_v,
+                "{dev} {seed} {:?}: α off by {d} with σ {}",
+                e.method,
+                e.alpha_sigma_cm2_per_v
+            );
+        }
+        // The quantum Hall uncertainty is not the naive one of thousands of points: at least
+        // 10⁻⁴ relative on these maps.
+        assert!(b.alpha_sigma_cm2_per_v / b.alpha_cm2_per_v > 1e-4);
+    }
+    assert!(compared >= 4, "only {compared} maps had both methods");
+}
+
+#[test]
+fn hall_plateaus_confirm_states_and_a_wrong_hall_scale_contradicts_them() {
+    use fanmark_core::index::run::HALL_CONTRADICTION_CONFIDENCE;
+    let s = generate(&SynthConfig::varied(DeviceName::Wren, 2)).unwrap();
+    let map = synthetic::synthesis_map(&s).unwrap();
+    let rep = index_map(&map, &IndexOptions::new(Stack::Monolayer)).unwrap();
+    // On a quantum Hall plateau σ_xy = ν e²/h (von Klitzing): ν = ±2, ±6 agree.
+    for nu in [2, -2, 6, -6] {
+        let st = rep
+            .states
+            .iter()
+            .find(|x| x.t == r(nu, 1) && x.s.is_zero())
+            .unwrap_or_else(|| panic!("ν = {nu} not found"));
+        let h = st.hall_check.as_ref().expect("the map has R_xy");
+        assert_eq!(h.verdict, "agrees", "ν = {nu}: {h:?}");
+        assert!(h.plateau_rows >= 3);
+        assert!((h.sigma_xy_e2h - nu as f64).abs() < 0.2, "{h:?}");
+        assert_eq!(st.confidence, 1.0);
+    }
+    // R_xy halved (a wrong amplifier gain): the plateaus sit at σ_xy ≈ 2ν, which contradicts
+    // every ν found from R_xx; the states are kept, flagged and trusted less.
+    let mut bad = map.clone();
+    let mut c = map.channel_of(ChannelKind::Rxy).unwrap().clone();
+    c.data.mapv_inplace(|v| 0.5 * v);
+    bad.set_channel(c).unwrap();
+    let mut o = IndexOptions::new(Stack::Monolayer);
+    o.calibration = Some(rep.calibration.clone());
+    let rb = index_map(&bad, &o).unwrap();
+    for nu in [2, -2] {
+        let st = rb
+            .states
+            .iter()
+            .find(|x| x.t == r(nu, 1) && x.s.is_zero())
+            .unwrap_or_else(|| panic!("ν = {nu} not found"));
+        let h = st.hall_check.as_ref().unwrap();
+        assert_eq!(h.verdict, "contradicts", "ν = {nu}: {h:?}");
+        assert!(st.flags.iter().any(|f| f == "hall_contradiction"));
+        assert_eq!(st.confidence, HALL_CONTRADICTION_CONFIDENCE);
+    }
+}
+
+#[test]
+fn brown_zak_fields_are_found_as_horizontal_features() {
+    // B_q = φ₀ n₀ / q with φ₀ = h/e (check-values §1): the truth lists these fields.
+    let (mut found, mut expected) = (0, 0);
+    for seed in [6, 8, 9, 10] {
+        let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+        let truth: Vec<_> = s
+            .truth
+            .states
+            .iter()
+            .filter(|x| x.b_t.is_some() && x.visible)
+            .collect();
+        expected += truth.len();
+        for bz in &rep.brown_zak {
+            let t = truth
+                .iter()
+                .find(|x| x.phi_over_phi0 == Some(bz.phi_over_phi0))
+                .unwrap_or_else(|| panic!("seed {seed}: no Brown–Zak field {}", bz.phi_over_phi0));
+            let bt = t.b_t.unwrap();
+            // n₀ is known to ~2 %, so is B_q.
+            assert!(
+                (bz.b_t / bt - 1.0).abs() < 0.03,
+                "seed {seed}: {} T vs {bt} T",
+                bz.b_t
+            );
+            found += 1;
+        }
+    }
+    assert!(
+        found as f64 >= 0.6 * expected as f64,
+        "found {found} of {expected} Brown–Zak fields"
+    );
+}
+
+#[test]
+fn precision_recall_table_over_seeds_and_devices() {
+    // The table of the report: every varied seed of both devices. The monolayer meets the
+    // done-criteria of precision on every seed; the moiré device is measured and its
+    // superlattice density checked where found (recall and precision there are not yet at
+    // the done-criteria).
+    eprintln!("device seed precision recall Δα/α ΔV_CNP(V)");
+    let mut wren_recall = Vec::new();
+    for seed in 1..=5 {
+        let (p, rc, da, dv) = precision_recall(DeviceName::Wren, seed, Stack::Monolayer);
+        eprintln!("wren {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3}", 100.0 * da);
+        assert!(p >= 0.9, "wren seed {seed}: precision {p:.2}");
+        assert!(
+            da.abs() < 0.02 && dv.abs() < 0.3,
+            "wren seed {seed}: calibration"
+        );
+        wren_recall.push(rc);
+    }
+    let mean = wren_recall.iter().sum::<f64>() / wren_recall.len() as f64;
+    assert!(mean >= 0.85, "wren recall {wren_recall:?}");
+    let mut n0_ok = 0;
+    for seed in 6..=10 {
+        let (p, rc, da, dv) = precision_recall(DeviceName::Tern, seed, Stack::MonolayerMoire);
+        eprintln!("tern {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3}", 100.0 * da);
+        let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+        if let Some(m) = rep.moire {
+            // Done-criterion: n₀ within 3 % of the truth.
+            let dn = m.n0_cm2 / s.truth.n0_cm2.unwrap() - 1.0;
+            assert!(
+                dn.abs() < 0.03,
+                "tern seed {seed}: n₀ off by {:.2} %",
+                100.0 * dn
+            );
+            n0_ok += 1;
+        }
+    }
+    assert!(n0_ok >= 3, "n₀ found on {n0_ok} of 5 moiré seeds");
 }

@@ -151,15 +151,63 @@ fn wls(x: &[f64], y: &[f64], w: &[f64]) -> Option<(f64, f64, [[f64; 2]; 2], f64)
     ))
 }
 
+/// Delete-one-group jackknife standard deviations of the two outputs of `estimate`, run on
+/// every subset that leaves out one of `groups` (indices into the points). Points inside a
+/// group are correlated (one ridge, one stretch of neighbouring columns); the groups are taken
+/// as independent, so the spread of the leave-one-out estimates is an honest uncertainty that
+/// also catches a model that fits one part of the data differently from another. None with
+/// fewer than three groups or when an estimate fails.
+fn jackknife(
+    groups: &[Vec<usize>],
+    estimate: impl Fn(&[usize]) -> Option<(f64, f64)>,
+) -> Option<(f64, f64)> {
+    let k = groups.len();
+    if k < 3 {
+        return None;
+    }
+    let mut outs = Vec::with_capacity(k);
+    for leave in 0..k {
+        let idx: Vec<usize> = groups
+            .iter()
+            .enumerate()
+            .filter(|(g, _)| *g != leave)
+            .flat_map(|(_, v)| v.iter().copied())
+            .collect();
+        outs.push(estimate(&idx)?);
+    }
+    let kf = k as f64;
+    let m0 = outs.iter().map(|o| o.0).sum::<f64>() / kf;
+    let m1 = outs.iter().map(|o| o.1).sum::<f64>() / kf;
+    let v0 = outs.iter().map(|o| (o.0 - m0).powi(2)).sum::<f64>() * (kf - 1.0) / kf;
+    let v1 = outs.iter().map(|o| (o.1 - m1).powi(2)).sum::<f64>() * (kf - 1.0) / kf;
+    Some((v0.sqrt(), v1.sqrt()))
+}
+
 /// Method (a): the low-field Hall slope. None when the map has no R_xy or no classical range.
+///
+/// The uncertainty includes how much the answer moves when only the lower half of the
+/// classical field range is used (the Drude slope bends as μB grows), added in quadrature.
 pub fn from_hall_slope(map: &Map, v_hint: Option<f64>) -> Option<GateEstimate> {
-    let rxy = &map.channel_of(ChannelKind::Rxy)?.data;
-    let b = map.y().values();
-    let v = map.x().values();
     let (bmin, bmax) = (map.y().min(), map.y().max());
     let top = (bmin + 0.15 * (bmax - bmin))
         .min(bmin.max(0.0) + 1.5)
         .max(bmin + 0.3);
+    let mut e = hall_slope_below(map, v_hint, top)?;
+    if let Some(h) = hall_slope_below(map, v_hint, bmin + 0.5 * (top - bmin)) {
+        let da = (h.alpha_cm2_per_v - e.alpha_cm2_per_v).abs();
+        e.alpha_sigma_cm2_per_v = e.alpha_sigma_cm2_per_v.hypot(da);
+        if let (Some(v1), Some(v2), Some(s)) = (e.v_cnp_v, h.v_cnp_v, e.v_cnp_sigma_v) {
+            e.v_cnp_sigma_v = Some(s.hypot(v1 - v2));
+        }
+    }
+    Some(e)
+}
+
+/// Method (a) with the rows of field ≤ `top` (T).
+fn hall_slope_below(map: &Map, v_hint: Option<f64>, top: f64) -> Option<GateEstimate> {
+    let rxy = &map.channel_of(ChannelKind::Rxy)?.data;
+    let b = map.y().values();
+    let v = map.x().values();
     let rows: Vec<usize> = (0..b.len())
         .filter(|&i| b[i] <= top && b[i].abs() > 1e-3)
         .collect();
@@ -254,11 +302,26 @@ pub fn from_hall_slope(map: &Map, v_hint: Option<f64>) -> Option<GateEstimate> {
     let var_vc = dv_dc0 * dv_dc0 * cov[0][0]
         + 2.0 * dv_dc0 * dv_dc1 * cov[0][1]
         + dv_dc1 * dv_dc1 * cov[1][1];
+    // Neighbouring columns share the residual curvature of 1/(e R_H) against V (charge
+    // puddles, the onset of Landau quantisation): a jackknife over eight contiguous blocks of
+    // columns measures how much the answer depends on which stretch of gate is used.
+    let nb = 8.min(xs.len() / 3);
+    let blocks: Vec<Vec<usize>> = (0..nb)
+        .map(|k| (k * xs.len() / nb..(k + 1) * xs.len() / nb).collect())
+        .collect();
+    let jk = jackknife(&blocks, |idx| {
+        let x: Vec<f64> = idx.iter().map(|&i| xs[i]).collect();
+        let y: Vec<f64> = idx.iter().map(|&i| ys[i]).collect();
+        let (a, b, _, _) = wls(&x, &y, &vec![1.0; x.len()])?;
+        let (alpha, v0) = (b, -a / b);
+        (alpha > 0.0).then_some((alpha, v0))
+    });
+    let (sa_jk, sv_jk) = jk.unwrap_or((0.0, 0.0));
     Some(GateEstimate {
         alpha_cm2_per_v: c1 / 1e4,
-        alpha_sigma_cm2_per_v: cov[1][1].sqrt() / 1e4,
+        alpha_sigma_cm2_per_v: cov[1][1].sqrt().max(sa_jk) / 1e4,
         v_cnp_v: Some(vc),
-        v_cnp_sigma_v: Some(var_vc.max(0.0).sqrt()),
+        v_cnp_sigma_v: Some(var_vc.max(0.0).sqrt().max(sv_jk)),
         method: CalibrationMethod::HallSlope,
         points: pts.len(),
     })
@@ -467,7 +530,7 @@ pub fn from_quantum_hall(
     let (mut vc, mut inv_alpha) = (vc0, 1.0 / alpha0);
     let mut result = None;
     for _ in 0..3 {
-        let (mut xs, mut ys, mut ws) = (Vec::new(), Vec::new(), Vec::new());
+        let (mut xs, mut ys, mut ws, mut lines) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
         for &(v, b, w) in &pts {
             let nu = (v - vc) / (inv_alpha * E_OVER_H * b);
             let m = seq
@@ -480,6 +543,7 @@ pub fn from_quantum_hall(
                     xs.push(m * E_OVER_H * b);
                     ys.push(v);
                     ws.push(w);
+                    lines.push(m as i64);
                 }
             }
         }
@@ -489,15 +553,34 @@ pub fn from_quantum_hall(
         }
         vc = a;
         inv_alpha = c;
-        result = Some((a, c, cov, xs.len()));
+        result = Some((a, c, cov, xs, ys, ws, lines));
     }
-    let (a, c, cov, n) = result?;
+    let (a, c, cov, xs, ys, ws, lines) = result?;
+    let n = xs.len();
     let alpha = 1.0 / c;
+    // The minima along one ridge share its disorder and its width, so they are not
+    // independent: the uncertainty is the jackknife over whole lines (each ν one group).
+    let mut ids: Vec<i64> = lines.clone();
+    ids.sort_unstable();
+    ids.dedup();
+    let groups: Vec<Vec<usize>> = ids
+        .iter()
+        .map(|&m| (0..n).filter(|&i| lines[i] == m).collect())
+        .filter(|g: &Vec<usize>| g.len() >= 3)
+        .collect();
+    let jk = jackknife(&groups, |idx| {
+        let x: Vec<f64> = idx.iter().map(|&i| xs[i]).collect();
+        let y: Vec<f64> = idx.iter().map(|&i| ys[i]).collect();
+        let w: Vec<f64> = idx.iter().map(|&i| ws[i]).collect();
+        let (a, c, _, _) = wls(&x, &y, &w)?;
+        (c > 0.0).then(|| (1.0 / c, a))
+    });
+    let (sa_jk, sv_jk) = jk.unwrap_or((0.0, 0.0));
     Some(GateEstimate {
         alpha_cm2_per_v: alpha / 1e4,
-        alpha_sigma_cm2_per_v: cov[1][1].sqrt() * alpha * alpha / 1e4,
+        alpha_sigma_cm2_per_v: (cov[1][1].sqrt() * alpha * alpha).max(sa_jk) / 1e4,
         v_cnp_v: Some(a),
-        v_cnp_sigma_v: Some(cov[0][0].sqrt()),
+        v_cnp_sigma_v: Some(cov[0][0].sqrt().max(sv_jk)),
         method: CalibrationMethod::QuantumHall,
         points: n,
     })

@@ -234,20 +234,22 @@ pub fn misalignment_fraction(rxx: &Array2<f64>, rxy: &Array2<f64>) -> f64 {
     // Mode of the ratios: densest window of width 0.001.
     ratios.sort_by(f64::total_cmp);
     let w = 1e-3;
-    let (mut best, mut best_n, mut k) = (0.0, 0usize, 0usize);
+    let (mut best_at, mut best_n, mut k) = ((0usize, 0usize), 0usize, 0usize);
     for i in 0..ratios.len() {
         while ratios[i] - ratios[k] > w {
             k += 1;
         }
         if i + 1 - k > best_n {
             best_n = i + 1 - k;
-            best = median(ratios[k..=i].iter().copied());
+            best_at = (k, i);
         }
     }
     if best_n * 20 < ratios.len() {
         0.0
     } else {
-        best
+        // The window is sorted: its median is its middle element(s).
+        let (a, z) = best_at;
+        0.5 * (ratios[a + (z - a) / 2] + ratios[a + (z - a).div_ceil(2)])
     }
 }
 

@@ -2,7 +2,9 @@
 //! line scoring over the stack's families, suppression, Hall cross-check and classification.
 
 use super::calibrate::{calibrate_map, moire_density, Calibration, MoireEstimate};
-use super::features::{find_minima, gap_map, median, sigma_xy_e2h, GapMapOptions};
+use super::features::{
+    find_minima, find_plateaus, gap_map, median, sigma_xy_e2h, GapMapOptions, PlateauSegment,
+};
 use super::score::{score_lines, suppress_neighbours, ScoreOptions};
 use super::stack::Stack;
 use crate::constants::E_OVER_H;
@@ -29,13 +31,20 @@ pub enum StateClass {
 /// Agreement of the Hall plateau along a line with t·e²/h.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct HallCheck {
-    /// Median |σ_xy| along the seen part of the line, e²/h (sign fixed so σ_xy grows with n).
+    /// Median σ_xy of the R_xy plateaus the line passes through in its seen field range,
+    /// e²/h (sign fixed so σ_xy grows with n); NaN (null) without a plateau.
     pub sigma_xy_e2h: f64,
     /// Expected t.
     pub expected_e2h: f64,
+    /// Field rows of the seen range where the line lies on a plateau.
+    #[serde(default)]
+    pub plateau_rows: usize,
     /// `agrees`, `contradicts` or `no_plateau`.
     pub verdict: String,
 }
+
+/// Confidence factor of a state whose Hall plateau contradicts its t.
+pub const HALL_CONTRADICTION_CONFIDENCE: f64 = 0.5;
 
 /// One indexed state.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -62,6 +71,74 @@ pub struct IndexedState {
     pub hall_check: Option<HallCheck>,
     /// Extra flags: `fractional_s`, `fractional_t`, `hall_contradiction`.
     pub flags: Vec<String>,
+    /// Confidence in (0, 1]: 1 unless the Hall cross-check contradicts the state (then
+    /// [`HALL_CONTRADICTION_CONFIDENCE`]). States are ordered by score × confidence.
+    #[serde(default = "full_confidence")]
+    pub confidence: f64,
+}
+
+fn full_confidence() -> f64 {
+    1.0
+}
+
+/// Largest change of σ_xy between neighbouring gate points on a plateau, e²/h.
+const PLATEAU_TOLERANCE_E2H: f64 = 0.03;
+/// Fewest gate points of a plateau.
+const PLATEAU_MIN_POINTS: usize = 3;
+
+/// Tolerance of the Hall cross-check for slope t, e²/h: a plateau agrees when its σ_xy lies
+/// within this of t (the plateaus of fractions and of high ν are less flat).
+fn hall_tolerance(t: f64) -> f64 {
+    0.1 + 0.02 * t.abs()
+}
+
+/// The Hall cross-check of the line n(B) = t(e/h)B + s n₀ over fields [lo, hi] against the
+/// R_xy plateaus (σ_xy in e²/h, already signed so it grows with n).
+#[allow(clippy::too_many_arguments)]
+fn hall_check(
+    map: &Map,
+    gate: &crate::gate::SingleGate,
+    plateaus: &[Vec<PlateauSegment>],
+    t: Rational,
+    s: Rational,
+    n0: f64,
+    lo: f64,
+    hi: f64,
+) -> HallCheck {
+    let b = map.y().values();
+    let mut vals = Vec::new();
+    let mut rows_seen = 0usize;
+    for (r, &br) in b.iter().enumerate() {
+        if br < lo || br > hi {
+            continue;
+        }
+        rows_seen += 1;
+        let n = t.to_f64() * E_OVER_H * br + s.to_f64() * n0;
+        let v = gate.gate_for_density(n);
+        if let Some(p) = plateaus[r]
+            .iter()
+            .find(|p| v >= p.gate_range_v.0 && v <= p.gate_range_v.1)
+        {
+            vals.push(p.sigma_xy_e2h);
+        }
+    }
+    let count = vals.len();
+    let m = median(vals);
+    let expected = t.to_f64();
+    // A plateau on fewer than a fifth of the seen rows (or two rows) is no plateau.
+    let verdict = if count < 2 || 5 * count < rows_seen || !m.is_finite() {
+        "no_plateau"
+    } else if (m - expected).abs() <= hall_tolerance(expected) {
+        "agrees"
+    } else {
+        "contradicts"
+    };
+    HallCheck {
+        sigma_xy_e2h: m,
+        expected_e2h: expected,
+        plateau_rows: count,
+        verdict: verdict.into(),
+    }
 }
 
 /// A Brown–Zak field found in the data.
@@ -185,44 +262,35 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
             -1.0
         }
     });
-    let b = map.y().values();
+    // Hall plateaus per row, σ_xy signed to grow with n.
+    let plateaus: Option<Vec<Vec<PlateauSegment>>> = match (&sxy, hall_sign) {
+        (Some(sx), Some(sign)) => {
+            let signed = sx.mapv(|v| sign * v);
+            let mut rows = vec![Vec::new(); map.y().len()];
+            for p in find_plateaus(map, &signed, PLATEAU_TOLERANCE_E2H, PLATEAU_MIN_POINTS) {
+                rows[p.row].push(p);
+            }
+            Some(rows)
+        }
+        _ => None,
+    };
     let mut states = Vec::new();
     for &i in &kept {
         let e = &ev[i];
         let c = &cands[e.candidate];
         let (kind, mut flags) = classify(opts.stack, c.t, c.s);
-        let hall_check = match (&sxy, hall_sign) {
-            (Some(s), Some(sign)) => {
-                let (lo, hi) = (e.b_onset_t.unwrap_or(0.0), e.b_max_t.unwrap_or(0.0));
-                let vals: Vec<f64> = (0..b.len())
-                    .filter(|&r| b[r] >= lo && b[r] <= hi)
-                    .filter_map(|r| {
-                        let n = c.t.to_f64() * E_OVER_H * b[r] + c.s.to_f64() * n0.unwrap_or(0.0);
-                        let f = map.x().fractional_index(gate.gate_for_density(n))?;
-                        let v = s[[r, f.round() as usize]];
-                        v.is_finite().then_some(sign * v)
-                    })
-                    .collect();
-                let m = median(vals);
-                let expected = c.t.to_f64();
-                let verdict = if !m.is_finite() {
-                    "no_plateau"
-                } else if (m - expected).abs() <= 0.15 * expected.abs().max(1.0) {
-                    "agrees"
-                } else {
-                    "contradicts"
-                };
-                if verdict == "contradicts" {
-                    flags.push("hall_contradiction".into());
-                }
-                Some(HallCheck {
-                    sigma_xy_e2h: m,
-                    expected_e2h: expected,
-                    verdict: verdict.into(),
-                })
-            }
-            _ => None,
-        };
+        let hall_check = plateaus.as_ref().map(|p| {
+            let (lo, hi) = (e.b_onset_t.unwrap_or(0.0), e.b_max_t.unwrap_or(0.0));
+            hall_check(map, &gate, p, c.t, c.s, n0.unwrap_or(0.0), lo, hi)
+        });
+        let mut confidence = 1.0;
+        if hall_check
+            .as_ref()
+            .is_some_and(|h| h.verdict == "contradicts")
+        {
+            flags.push("hall_contradiction".into());
+            confidence = HALL_CONTRADICTION_CONFIDENCE;
+        }
         states.push(IndexedState {
             kind,
             t: c.t,
@@ -234,9 +302,10 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
             b_max_t: e.b_max_t,
             hall_check,
             flags,
+            confidence,
         });
     }
-    states.sort_by(|a, b| b.score.total_cmp(&a.score));
+    states.sort_by(|a, b| (b.score * b.confidence).total_cmp(&(a.score * a.confidence)));
     let brown_zak = match moire {
         Some(m) => super::brown_zak::find_brown_zak(map, &gap.g, m.n0_cm2 * 1e4),
         None => Vec::new(),

@@ -51,14 +51,20 @@ pub struct TruthState {
     /// Disorder broadening Γ subtracted from the gap, K.
     #[serde(rename = "broadening_K")]
     pub broadening_k: Option<f64>,
-    /// Lowest field at which its R_xx dip (or peak) exceeds 3× the noise and its plateau spans
-    /// at least one gate step; null if never.
+    /// Lowest field at which the state is resolvable (see `visible`); null if never.
     #[serde(rename = "b_onset_T")]
     pub b_onset_t: Option<f64>,
     /// Highest field of the map at which its line lies inside the gate range; null if never.
     #[serde(rename = "b_max_T")]
     pub b_max_t: Option<f64>,
-    /// True if the state is visible somewhere in the map's range.
+    /// True if the state is visible in the map: resolvable in at least
+    /// `MIN_RESOLVED_ROWS` (4) of the map's field rows. A gap line is resolvable at a field
+    /// when its line lies inside the gate range and its own domain, its plateau spans at least
+    /// one gate step, its R_xx dip (or peak) exceeds 3× the noise, and no other state with
+    /// such a dip at least as deep (relative to R_xx) lies within two gate steps in density
+    /// (a sampled maximum must separate the two minima, or the weaker is hidden in the
+    /// stronger). A line is told from a point feature only by its slope through several
+    /// field rows. A Brown–Zak feature is visible when its field lies inside the field range.
     pub visible: bool,
 }
 
@@ -129,43 +135,99 @@ fn label(t: Rational, s: Rational) -> String {
     }
 }
 
-/// Onset and top field of state `j` in the map's ranges.
-fn visibility(model: &Model, cfg: &SynthConfig, j: usize) -> (Option<f64>, Option<f64>) {
+/// Fewest field rows of the map in which a state must be resolvable to count as visible.
+pub const MIN_RESOLVED_ROWS: usize = 4;
+/// Smallest distance, in gate steps, from another open gap's line for a line to be resolved.
+const MIN_SEPARATION_STEPS: f64 = 2.0;
+
+/// Per state at field `b` (T): the relative depth of its own R_xx dip (or peak),
+/// |R_with − R_without|/R_without, where its line lies inside the gate range and its domain
+/// and the change exceeds 3× the noise; 0 elsewhere.
+fn significant_dips(model: &Model, cfg: &SynthConfig, b: f64) -> Vec<f64> {
+    let (g_lo, g_hi) = cfg.gate_range_v;
+    (0..model.states.len())
+        .map(|k| {
+            let n = model.line_density(k, b);
+            let vg = model.device.gate_for_density(n);
+            if !(g_lo..=g_hi).contains(&vg) || model.domain_weight_on_line(k, b) < 0.5 {
+                return 0.0;
+            }
+            let with = model.rxx_at_density(n, b, None);
+            let without = model.rxx_at_density(n, b, Some(k));
+            let d = (with - without).abs();
+            if d > 3.0 * cfg.noise.sigma(without).max(0.5) {
+                d / without.abs().max(1e-300)
+            } else {
+                0.0
+            }
+        })
+        .collect()
+}
+
+/// True when state `j`'s gap is resolvable at field `b` given every state's `dips` there;
+/// see [`TruthState::visible`].
+fn resolvable(model: &Model, j: usize, b: f64, dips: &[f64], gate_step_density: f64) -> bool {
+    if dips[j] <= 0.0 || 2.0 * model.plateau_half_width(j, b) < gate_step_density {
+        return false;
+    }
+    let n = model.line_density(j, b);
+    !(0..model.states.len()).any(|k| {
+        k != j
+            && dips[k] >= dips[j]
+            && (model.line_density(k, b) - n).abs() < MIN_SEPARATION_STEPS * gate_step_density
+    })
+}
+
+/// Onset field, top field and the number of the map's field rows in which each state is
+/// resolvable.
+fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>, usize)> {
     let (b_lo, b_hi) = cfg.field_range_t;
     let (g_lo, g_hi) = cfg.gate_range_v;
     let gate_step_density =
         model.device.alpha_m2_per_v() * (g_hi - g_lo) / (cfg.gate_points.max(2) - 1) as f64;
-    let mut onset = None;
-    let mut top = None;
+    let count = model.states.len();
+    let inside = |j: usize, b: f64| {
+        let vg = model.device.gate_for_density(model.line_density(j, b));
+        (g_lo..=g_hi).contains(&vg) && model.domain_weight_on_line(j, b) >= 0.5
+    };
+    let mut out = vec![(None, None, 0usize); count];
     for i in 0..ONSET_SCAN_POINTS {
         let b = b_lo + (b_hi - b_lo) * i as f64 / (ONSET_SCAN_POINTS - 1) as f64;
-        let n = model.line_density(j, b);
-        let vg = model.device.gate_for_density(n);
-        if !(g_lo..=g_hi).contains(&vg) || model.domain_weight_on_line(j, b) < 0.5 {
-            continue;
-        }
-        top = Some(b);
-        if onset.is_some() {
-            continue;
-        }
-        if 2.0 * model.plateau_half_width(j, b) < gate_step_density {
-            continue;
-        }
-        let with = model.rxx_at_density(n, b, None);
-        let without = model.rxx_at_density(n, b, Some(j));
-        if (with - without).abs() > 3.0 * cfg.noise.sigma(without).max(0.5) {
-            onset = Some(b);
+        let dips = significant_dips(model, cfg, b);
+        for (j, o) in out.iter_mut().enumerate() {
+            if !inside(j, b) {
+                continue;
+            }
+            o.1 = Some(b);
+            if o.0.is_none() && resolvable(model, j, b, &dips, gate_step_density) {
+                o.0 = Some(b);
+            }
         }
     }
-    (onset, top)
+    let rows = cfg.field_points.max(1);
+    for i in 0..rows {
+        let b = if rows > 1 {
+            b_lo + (b_hi - b_lo) * i as f64 / (rows - 1) as f64
+        } else {
+            b_lo
+        };
+        let dips = significant_dips(model, cfg, b);
+        for (j, o) in out.iter_mut().enumerate() {
+            if resolvable(model, j, b, &dips, gate_step_density) {
+                o.2 += 1;
+            }
+        }
+    }
+    out
 }
 
 /// Build the truth of a map made from `cfg` with `model`, given where the flaws went.
 pub fn build_truth(model: &Model, cfg: &SynthConfig, log: FlawLog) -> Truth {
     let d = &model.device;
     let mut states = Vec::new();
+    let vis = visibility(model, cfg);
     for (j, st) in model.states.iter().enumerate() {
-        let (onset, top) = visibility(model, cfg, j);
+        let (onset, top, resolved_rows) = vis[j];
         states.push(TruthState {
             kind: st.kind,
             label: label(st.t, st.s),
@@ -178,7 +240,7 @@ pub fn build_truth(model: &Model, cfg: &SynthConfig, log: FlawLog) -> Truth {
             broadening_k: Some(round_sig(model.broadening_k(j), 6)),
             b_onset_t: onset.map(|b| round_sig(b, 6)),
             b_max_t: top.map(|b| round_sig(b, 6)),
-            visible: onset.is_some(),
+            visible: onset.is_some() && resolved_rows >= MIN_RESOLVED_ROWS,
         });
     }
     let (b_lo, b_hi) = cfg.field_range_t;
