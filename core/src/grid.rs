@@ -22,7 +22,6 @@ pub struct GridOptions {
     pub step_tolerance: Option<f64>,
 }
 
-
 /// Hysteresis between up and down sweeps, estimated from the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Hysteresis {
