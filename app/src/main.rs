@@ -34,6 +34,8 @@ enum Command {
     Calibrate(cmd::calibrate::Args),
     /// Find and index every gap: states with (t, s), score, onset and Hall check.
     Index(cmd::index::Args),
+    /// Draw a publication figure (PNG, SVG or PDF) of one channel with lines and found states.
+    Figure(cmd::figure::Args),
 }
 
 fn main() -> ExitCode {
@@ -46,6 +48,7 @@ fn main() -> ExitCode {
         Command::Palettes(a) => cmd::palettes::run(a),
         Command::Calibrate(a) => cmd::calibrate::run(a),
         Command::Index(a) => cmd::index::run(a),
+        Command::Figure(a) => cmd::figure::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -2,6 +2,7 @@
 
 pub mod calibrate;
 pub mod demo;
+pub mod figure;
 pub mod index;
 pub mod inspect;
 pub mod lines;

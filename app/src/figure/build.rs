@@ -10,7 +10,7 @@ use super::scene::{
     AxisSpec, ColorBar, ColorScale, Corner, Figure, HeatMap, Legend, LegendEntry, Markers, Panel,
     Polyline, Resample, SecondaryAxis, Swatch, TextLabel, ValueRange,
 };
-use super::style::{line_style, state_family, state_kind_name, state_marker, Role};
+use super::style::{line_style, state_family, state_marker, Role};
 use fanmark_core::conductivity::SampleGeometry;
 use fanmark_core::constants::{E2_OVER_H, E_OVER_H, FLUX_QUANTUM_H_OVER_E};
 use fanmark_core::derived::{derive, DeriveOptions, DerivedQuantity};
@@ -115,10 +115,12 @@ pub struct FigureChoices {
     pub lines: Vec<Line>,
     /// Detected states to overlay (solid, outlined, labelled, with a marker).
     pub states: Vec<IndexedState>,
-    /// At most this many predicted lines get a label (the simplest fractions first).
-    pub label_limit: usize,
-    /// At most this many detected states get a label (the strongest first).
-    pub state_label_limit: usize,
+    /// At most this many predicted lines get a label (the simplest fractions first); `None`:
+    /// about ten per single-column width.
+    pub label_limit: Option<usize>,
+    /// At most this many detected states get a label (the strongest first); `None`: about
+    /// twelve per single-column width.
+    pub state_label_limit: Option<usize>,
     /// Figure width, mm.
     pub width_mm: f64,
     /// Figure height, mm.
@@ -145,8 +147,8 @@ impl Default for FigureChoices {
             geometry: None,
             lines: Vec::new(),
             states: Vec::new(),
-            label_limit: 24,
-            state_label_limit: 30,
+            label_limit: None,
+            state_label_limit: None,
             width_mm: 86.0,
             height_mm: 70.0,
             dpi: 300.0,
@@ -699,6 +701,19 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
         }
     };
 
+    let mut values = pl.values;
+    if scale == ColorScale::Log {
+        // Noise takes small resistances below zero; draw them at the low end of the scale
+        // instead of as missing data.
+        let floor = values
+            .iter()
+            .copied()
+            .filter(|v| v.is_finite() && *v > 0.0)
+            .fold(f64::INFINITY, f64::min);
+        if floor.is_finite() {
+            values.mapv_inplace(|v| if v.is_finite() && v <= 0.0 { floor } else { v });
+        }
+    }
     let mut panel = Panel::new(
         AxisSpec {
             label: pl.x_label.clone(),
@@ -712,7 +727,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
     panel.top_axis = pl.top.clone();
     panel.right_axis = pl.right.clone();
     panel.heatmap = Some(HeatMap {
-        values: pl.values,
+        values,
         x: pl.x,
         y: pl.y,
         colors,
@@ -754,6 +769,12 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                 .map(|p| (p.x / pl.x_si, p.y / pl.y_si))
                 .collect()
         };
+        let columns = (c.width_mm / 86.0).max(0.5);
+        let label_limit = c.label_limit.unwrap_or((10.0 * columns).round() as usize);
+        let state_label_limit = c
+            .state_label_limit
+            .unwrap_or((12.0 * columns).round() as usize);
+        let detected: Vec<(Rational, Rational)> = c.states.iter().map(|s| (s.t, s.s)).collect();
         let mut families: Vec<Family> = Vec::new();
         // Predicted lines, simplest first for labelling.
         let mut order: Vec<usize> = (0..c.lines.len()).collect();
@@ -787,7 +808,8 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                     style: style.clone(),
                 });
             }
-            if predicted_labels.len() < c.label_limit {
+            let found = line.ts().is_some_and(|ts| detected.contains(&ts));
+            if !found && predicted_labels.len() < label_limit {
                 let (fill, outline) = (style.color, [0u8, 0, 0]);
                 predicted_labels.push(TextLabel {
                     text: short_label(&line.shape),
@@ -846,7 +868,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                     style: style.clone(),
                 });
             }
-            if state_labels.len() < c.state_label_limit {
+            if state_labels.len() < state_label_limit {
                 if let Some(&end) = longest.last() {
                     panel.markers.push(Markers {
                         points: vec![end],
@@ -865,27 +887,28 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
         // Found states are labelled first; predictions fill the space left.
         panel.labels = state_labels;
         panel.labels.extend(predicted_labels);
-        families.sort();
-        let mut entries: Vec<LegendEntry> = families
-            .iter()
-            .map(|&f| LegendEntry {
-                swatch: Swatch::Line(line_style(f, Role::Predicted)),
-                text: format!("{} (predicted)", family_title(f)),
-            })
-            .collect();
-        for k in [
-            StateClass::Integer,
-            StateClass::BrokenSymmetry,
-            StateClass::Fractional,
-            StateClass::Wannier,
-        ] {
-            if kinds.contains(&k) {
-                entries.push(LegendEntry {
-                    swatch: Swatch::Marker(state_marker(k)),
-                    text: format!("found: {}", state_kind_name(k).replace('_', " ")),
-                });
+        // One legend entry per family drawn: the found-state marker when the family has
+        // found states, else the predicted stroke.
+        for k in &kinds {
+            let f = state_family(*k);
+            if !families.contains(&f) {
+                families.push(f);
             }
         }
+        families.sort();
+        let entries: Vec<LegendEntry> = families
+            .iter()
+            .map(|&f| {
+                let found = kinds.iter().find(|k| state_family(**k) == f);
+                LegendEntry {
+                    swatch: match found {
+                        Some(k) => Swatch::Marker(state_marker(*k)),
+                        None => Swatch::Line(line_style(f, Role::Predicted)),
+                    },
+                    text: family_title(f).to_string(),
+                }
+            })
+            .collect();
         if !entries.is_empty() {
             panel.legend = Some(Legend {
                 entries,
@@ -1055,14 +1078,13 @@ mod tests {
             .iter()
             .map(|e| e.text.as_str())
             .collect();
-        assert_eq!(
-            legend,
-            [
-                "integer (predicted)",
-                "fractional (predicted)",
-                "found: integer"
-            ]
-        );
+        assert_eq!(legend, ["integer", "fractional"]);
+        assert!(matches!(
+            p.legend.as_ref().unwrap().entries[0].swatch,
+            Swatch::Marker(_)
+        ));
+        // The found ν = 2 is not labelled a second time as a prediction.
+        assert_eq!(texts.iter().filter(|t| **t == "2").count(), 1);
     }
 
     #[test]
