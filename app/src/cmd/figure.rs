@@ -51,12 +51,14 @@ pub struct Args {
     /// Heat-map palette (see `fanmark palettes`); default: sequential or diverging by channel.
     #[arg(long)]
     pub palette: Option<String>,
-    /// Colour scale: linear, log or symlog (default: log for rxx and sxx, else linear).
+    /// Colour scale: linear, log or symlog (default: log for rxx and sxx, symlog for signed
+    /// derivatives, else linear).
     #[arg(long)]
     pub scale: Option<String>,
-    /// Colour range from these percentiles of the shown values.
-    #[arg(long, value_name = "LO,HI", default_value = "1,99")]
-    pub clip: String,
+    /// Colour range from these percentiles of the shown values (default 1,99; signed channels
+    /// get a symmetric range at HI of |value|).
+    #[arg(long, value_name = "LO,HI")]
+    pub clip: Option<String>,
     /// Shown x range in the frame's units (V, 10¹² cm⁻², ν or n/n₀).
     #[arg(long, value_name = "A,B")]
     pub x_range: Option<String>,
@@ -402,7 +404,7 @@ pub fn run(a: Args) -> Result<()> {
             .as_deref()
             .map(str::parse::<ScaleKind>)
             .transpose()?,
-        clip_percent: pair("--clip", &a.clip)?,
+        clip_percent: a.clip.as_deref().map(|t| pair("--clip", t)).transpose()?,
         x_range: a
             .x_range
             .as_deref()
@@ -497,11 +499,15 @@ mod tests {
             2,
             10,
             Some(2.4e16),
-            9.0,
+            120.0,
         )
         .unwrap();
         assert!(w.iter().any(|l| l.family == Family::Wannier));
-        assert!(w.iter().any(|l| l.family == Family::BrownZak));
+        // φ/φ₀ = 1 at B = φ₀ n₀ = 4.1357e-15 T m² × 2.4e16 m⁻² = 99.3 T (q ≤ 1: the only one
+        // below 120 T).
+        let bz: Vec<&Line> = w.iter().filter(|l| l.family == Family::BrownZak).collect();
+        assert_eq!(bz.len(), 1);
+        assert!((bz[0].field_t(Some(2.4e16)).unwrap() - 99.257).abs() < 0.01);
         assert_eq!(pair("--clip", "1, 99").unwrap(), (1.0, 99.0));
         assert!(pair("--clip", "1").is_err());
         assert!(format_of(Path::new("a.PNG")).is_ok() && format_of(Path::new("a.jpg")).is_err());

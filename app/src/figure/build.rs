@@ -94,11 +94,13 @@ pub struct FigureChoices {
     pub frame: Option<FrameKind>,
     /// Palette name; `None`: sequential for magnitudes, diverging for signed channels.
     pub palette: Option<String>,
-    /// Colour scale; `None`: log for R_xx and σ_xx, linear otherwise.
+    /// Colour scale; `None`: log for R_xx and σ_xx, symmetric log for signed derivatives
+    /// (their charge-neutrality spike would take a linear range), linear otherwise.
     pub scale: Option<ScaleKind>,
     /// Colour range from these percentiles (lower, upper) of the shown values, 0…100. Signed
-    /// channels use a symmetric range at the upper percentile of |value|.
-    pub clip_percent: (f64, f64),
+    /// channels use a symmetric range at the upper percentile of |value|. `None`: 1…99, and
+    /// 99 of |value| for signed channels.
+    pub clip_percent: Option<(f64, f64)>,
     /// Shown x range in the frame's display units (V, 10¹² cm⁻², ν or n/n₀).
     pub x_range: Option<(f64, f64)>,
     /// Shown y range in the frame's display units (T or φ/φ₀).
@@ -138,7 +140,7 @@ impl Default for FigureChoices {
             frame: None,
             palette: None,
             scale: None,
-            clip_percent: (1.0, 99.0),
+            clip_percent: None,
             x_range: None,
             y_range: None,
             v_range: None,
@@ -481,7 +483,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
             let b_axis = map.y();
             let (nlo, nhi) = (n_axis.min(), n_axis.max());
             let bmax = b_axis.max();
-            if !(bmax > 0.0) {
+            if bmax.is_nan() || bmax <= 0.0 {
                 return Err(Error::MapRequirement(
                     "the filling-factor frame needs positive fields".into(),
                 ));
@@ -490,7 +492,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
                 Some(r) => check_range(r, "y range")?,
                 None => (b_axis.min().max(bmax / 4.0), bmax),
             };
-            if !(ylo > 0.0) {
+            if ylo.is_nan() || ylo <= 0.0 {
                 return Err(Error::invalid(
                     "y range",
                     "the filling-factor frame needs a field range above 0 T",
@@ -628,6 +630,42 @@ fn state_shape(st: &IndexedState) -> LineShape {
     LineShape::Gap { t: st.t, s: st.s }
 }
 
+/// The corner of the plot whose quarter-sized region the overlay lines cross least (samples
+/// along each line), so the legend hides as little as possible.
+fn emptiest_corner(p: &Panel) -> Corner {
+    let (x0, x1) = p.x_axis.range;
+    let (y0, y1) = p.y_axis.range;
+    let fx = |x: f64| (x - x0) / (x1 - x0);
+    let fy = |y: f64| (y - y0) / (y1 - y0);
+    let corners = [
+        (Corner::TopLeft, false, true),
+        (Corner::TopRight, true, true),
+        (Corner::BottomLeft, false, false),
+        (Corner::BottomRight, true, false),
+    ];
+    let mut counts = [0usize; 4];
+    for l in &p.lines {
+        for w in l.points.windows(2) {
+            for k in 0..8 {
+                let t = k as f64 / 8.0;
+                let (u, v) = (
+                    fx(w[0].0 + t * (w[1].0 - w[0].0)),
+                    fy(w[0].1 + t * (w[1].1 - w[0].1)),
+                );
+                for (i, &(_, right, top)) in corners.iter().enumerate() {
+                    let in_x = if right { u > 0.6 } else { u < 0.4 };
+                    let in_y = if top { v > 0.65 } else { v < 0.35 };
+                    if in_x && in_y {
+                        counts[i] += 1;
+                    }
+                }
+            }
+        }
+    }
+    let best = (0..4).min_by_key(|&i| counts[i]).unwrap_or(0);
+    corners[best].0
+}
+
 /// Build the single panel of `map` with `choices`, and what was drawn.
 pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)> {
     let kind = c.frame.unwrap_or(
@@ -650,9 +688,12 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
 
     // Colours.
     let magnitude = !shown.signed;
+    let derivative = c.channel.starts_with('d');
     let scale_kind = c.scale.unwrap_or(
         if magnitude && matches!(shown.kind, ChannelKind::Rxx | ChannelKind::SigmaXx) {
             ScaleKind::Log
+        } else if derivative && shown.signed {
+            ScaleKind::SymLog
         } else {
             ScaleKind::Linear
         },
@@ -663,7 +704,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
         .unwrap_or_else(|| if magnitude { "kiln" } else { "seesaw" }.to_string());
     let palette = by_name(&palette_name)?;
     let colors: Vec<[u8; 3]> = (0..256).map(|i| palette.sample(i as f64 / 255.0)).collect();
-    let (plo, phi) = c.clip_percent;
+    let (plo, phi) = c.clip_percent.unwrap_or((1.0, 99.0));
     if !(0.0..=100.0).contains(&plo) || !(0.0..=100.0).contains(&phi) || plo >= phi {
         return Err(Error::invalid(
             "clip percentiles",
@@ -691,9 +732,11 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                 ValueRange::Fixed(a, b) => a.abs().max(b.abs()),
                 ValueRange::Percentile(_, p) => percentile_abs(&pl.values, p),
             };
+            // Linear within the typical (median) magnitude, bounded to [L/1000, L/3].
+            let typical = percentile_abs(&pl.values, 50.0);
             ColorScale::SymLog {
                 linear_threshold: if l.is_finite() && l > 0.0 {
-                    l / 30.0
+                    typical.clamp(l / 1000.0, l / 3.0)
                 } else {
                     1.0
                 },
@@ -705,12 +748,16 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
     if scale == ColorScale::Log {
         // Noise takes small resistances below zero; draw them at the low end of the scale
         // instead of as missing data.
-        let floor = values
+        let mut positive: Vec<f64> = values
             .iter()
             .copied()
             .filter(|v| v.is_finite() && *v > 0.0)
-            .fold(f64::INFINITY, f64::min);
-        if floor.is_finite() {
+            .collect();
+        if !positive.is_empty() {
+            let k = ((plo / 100.0 * (positive.len() - 1) as f64).round() as usize)
+                .min(positive.len() - 1);
+            let (_, f, _) = positive.select_nth_unstable_by(k, f64::total_cmp);
+            let floor = *f;
             values.mapv_inplace(|v| if v.is_finite() && v <= 0.0 { floor } else { v });
         }
     }
@@ -838,7 +885,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                 y_lo.min(y_hi).max(rect_si.y_min),
                 y_lo.max(y_hi).min(rect_si.y_max),
             );
-            if !(ya < yb) {
+            if ya.is_nan() || yb.is_nan() || ya >= yb {
                 continue;
             }
             let seen = FrameRect::new(rect_si.x_min, rect_si.x_max, ya, yb)?;
@@ -854,7 +901,15 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
             if !kinds.contains(&st.kind) {
                 kinds.push(st.kind);
             }
-            let style = line_style(fam, Role::Detected);
+            let labelled = state_labels.len() < state_label_limit;
+            let style = line_style(
+                fam,
+                if labelled {
+                    Role::Detected
+                } else {
+                    Role::DetectedWeak
+                },
+            );
             let mut longest: Vec<(f64, f64)> = Vec::new();
             for seg in &segs {
                 let pts = to_display(seg);
@@ -868,7 +923,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
                     style: style.clone(),
                 });
             }
-            if state_labels.len() < state_label_limit {
+            if labelled {
                 if let Some(&end) = longest.last() {
                     panel.markers.push(Markers {
                         points: vec![end],
@@ -912,7 +967,7 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
         if !entries.is_empty() {
             panel.legend = Some(Legend {
                 entries,
-                corner: Corner::BottomLeft,
+                corner: emptiest_corner(&panel),
             });
         }
     }
@@ -1096,6 +1151,7 @@ mod tests {
         };
         let (fig, _) = build_figure(&fan(), &c).unwrap();
         let hm = fig.panels[0].heatmap.as_ref().unwrap();
+        assert!(matches!(hm.scale, ColorScale::SymLog { .. }));
         match hm.range {
             ValueRange::Fixed(a, b) => assert!(a < 0.0 && (a + b).abs() < 1e-12),
             other => panic!("expected a symmetric range, got {other:?}"),
@@ -1187,7 +1243,7 @@ mod tests {
         let e = build_figure(
             &m,
             &FigureChoices {
-                clip_percent: (50.0, 10.0),
+                clip_percent: Some((50.0, 10.0)),
                 ..FigureChoices::default()
             },
         )

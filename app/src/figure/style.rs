@@ -18,8 +18,11 @@ use fanmark_core::palette::companions;
 pub enum Role {
     /// Predicted by a family's rule, not (yet) checked against the data.
     Predicted,
-    /// Found in the data by the indexer (or labelled by the user).
+    /// Found in the data by the indexer (or labelled by the user), among the strongest: labelled.
     Detected,
+    /// Found in the data but weaker than the labelled ones: solid and thin, no outline, so
+    /// the heat map stays readable under dense fans.
+    DetectedWeak,
 }
 
 /// One row of the family style table.
@@ -46,7 +49,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "light-yellow",
         dash_pt: &[],
         predicted_width_pt: 0.5,
-        detected_width_pt: 1.0,
+        detected_width_pt: 0.7,
         note: "solid: the degenerate sequence, the backbone of the fan",
     },
     FamilyStyle {
@@ -54,7 +57,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "light-teal",
         dash_pt: &[3.0, 1.5],
         predicted_width_pt: 0.45,
-        detected_width_pt: 0.9,
+        detected_width_pt: 0.6,
         note: "even dashes: lifted spin/valley degeneracy",
     },
     FamilyStyle {
@@ -62,7 +65,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "light-blue",
         dash_pt: &[0.8, 1.2],
         predicted_width_pt: 0.45,
-        detected_width_pt: 0.8,
+        detected_width_pt: 0.6,
         note: "dots: fractional states, the weakest and most numerous",
     },
     FamilyStyle {
@@ -70,7 +73,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "red",
         dash_pt: &[4.0, 1.2, 0.8, 1.2],
         predicted_width_pt: 0.45,
-        detected_width_pt: 0.9,
+        detected_width_pt: 0.6,
         note: "dash-dot: Landau levels of a moiré band edge",
     },
     FamilyStyle {
@@ -78,7 +81,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "magenta",
         dash_pt: &[2.0, 1.0, 2.0, 3.0],
         predicted_width_pt: 0.45,
-        detected_width_pt: 0.9,
+        detected_width_pt: 0.6,
         note: "paired dashes: Chern-insulator (t, s) lines",
     },
     FamilyStyle {
@@ -86,7 +89,7 @@ pub const FAMILY_STYLES: [FamilyStyle; 6] = [
         companion: "blue",
         dash_pt: &[6.0, 2.0],
         predicted_width_pt: 0.5,
-        detected_width_pt: 0.9,
+        detected_width_pt: 0.6,
         note: "long dashes: horizontal fields of rational flux per cell",
     },
 ];
@@ -167,6 +170,12 @@ pub fn line_style(family: Family, role: Role) -> LineStyle {
             dash_pt: row.dash_pt.to_vec(),
             outline: None,
         },
+        Role::DetectedWeak => LineStyle {
+            color: fill,
+            width_pt: row.predicted_width_pt,
+            dash_pt: Vec::new(),
+            outline: None,
+        },
         Role::Detected => LineStyle {
             color: fill,
             width_pt: row.detected_width_pt,
@@ -238,8 +247,9 @@ fn dash_text(d: &[f64]) -> String {
 
 /// The style table as aligned text, for `fanmark figure --styles`.
 pub fn styles_text() -> String {
-    let mut s =
-        String::from("line families (predicted: thin, dashed; detected: solid, wider, outlined)\n");
+    let mut s = String::from(
+        "line families (predicted: thin, dashed; found: solid, the labelled ones outlined)\n",
+    );
     s.push_str(&format!(
         "  {:<18} {:<13} {:<8} {:<15} {:>9} {:>9}  {}\n",
         "family", "colour", "fill", "dash (pt)", "pred. pt", "det. pt", "meaning"
@@ -290,9 +300,8 @@ mod tests {
                 row.companion
             );
         }
-        for i in 0..FAMILY_STYLES.len() {
-            for j in i + 1..FAMILY_STYLES.len() {
-                let (a, b) = (&FAMILY_STYLES[i], &FAMILY_STYLES[j]);
+        for (i, a) in FAMILY_STYLES.iter().enumerate() {
+            for b in &FAMILY_STYLES[i + 1..] {
                 let (ca, _) = family_colours(a.family);
                 let (cb, _) = family_colours(b.family);
                 assert!(
@@ -314,6 +323,8 @@ mod tests {
             assert_eq!(p.color, d.color);
             assert!(d.width_pt > p.width_pt);
             assert!(d.dash_pt.is_empty() && d.outline.is_some() && p.outline.is_none());
+            let w = line_style(f, Role::DetectedWeak);
+            assert!(w.dash_pt.is_empty() && w.outline.is_none() && w.width_pt < d.width_pt);
             // The outline must contrast with the fill (ΔE_OK well above the fill spacing).
             let o = d.outline.unwrap();
             assert!(delta_e_seen(d.color, o, None) > 0.4);
