@@ -40,6 +40,8 @@ enum Command {
     Gaps(cmd::gaps::Args),
     /// Resample a dual-gate map onto (n, D/ε₀), with constant-ν lines and line cuts.
     Dualgate(cmd::dualgate::Args),
+    /// Draw a publication figure (PNG, SVG or PDF) of one channel with lines and found states.
+    Figure(cmd::figure::Args),
 }
 
 fn main() -> ExitCode {
@@ -55,6 +57,7 @@ fn main() -> ExitCode {
         Command::Sdh(a) => cmd::sdh::run(a),
         Command::Gaps(a) => cmd::gaps::run(a),
         Command::Dualgate(a) => cmd::dualgate::run(a),
+        Command::Figure(a) => cmd::figure::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

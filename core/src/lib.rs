@@ -18,6 +18,7 @@ pub mod map;
 pub mod palette;
 pub mod progress;
 pub mod rational;
+pub mod reframe;
 pub mod synth;
 pub mod units;
 

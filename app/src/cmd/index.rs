@@ -5,7 +5,7 @@ use super::load_args::LoadArgs;
 use anyhow::Context;
 use fanmark_core::index::calibrate::Calibration;
 use fanmark_core::index::stack::Stack;
-use fanmark_core::index::{index_map, IndexOptions};
+use fanmark_core::index::{index_map, IndexOptions, IndexReport};
 use fanmark_core::io::{load_map, write::write_atomic};
 use fanmark_core::progress::NoProgress;
 use std::fmt::Write as _;
@@ -59,9 +59,6 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             m.twist_deg.map_or("—".into(), |t| format!("{t:.3}°"))
         );
     }
-    let mut csv = String::from(
-        "kind,t,s,nu,score,t_stat,b_onset_T,b_max_T,hall_sigma_xy_e2h,hall_verdict,flags\n",
-    );
     println!(
         "{:<16} {:>7} {:>7} {:>8} {:>7} {:>8} {:>8} {:>12}",
         "kind", "t", "s", "score", "t-stat", "onset T", "max T", "Hall"
@@ -82,6 +79,22 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             s.b_max_t.unwrap_or(f64::NAN),
             hall
         );
+    }
+    if let Some(out) = a.json {
+        write_atomic(&out, serde_json::to_string_pretty(&r)?.as_bytes())?;
+    }
+    if let Some(out) = a.csv {
+        write_atomic(&out, states_csv(&r).as_bytes())?;
+    }
+    Ok(())
+}
+
+/// The states of a report as CSV, one row per state, strongest first.
+pub fn states_csv(r: &IndexReport) -> String {
+    let mut csv = String::from(
+        "kind,t,s,nu,score,t_stat,b_onset_T,b_max_T,hall_sigma_xy_e2h,hall_verdict,flags\n",
+    );
+    for s in &r.states {
         let _ = writeln!(
             csv,
             "{:?},{},{},{},{:.4},{:.3},{},{},{},{},{}",
@@ -104,11 +117,5 @@ pub fn run(a: Args) -> anyhow::Result<()> {
             s.flags.join(";")
         );
     }
-    if let Some(out) = a.json {
-        write_atomic(&out, serde_json::to_string_pretty(&r)?.as_bytes())?;
-    }
-    if let Some(out) = a.csv {
-        write_atomic(&out, csv.as_bytes())?;
-    }
-    Ok(())
+    csv
 }

@@ -4,6 +4,7 @@ pub mod calibrate;
 pub mod demo;
 pub mod dualgate;
 pub mod gaps;
+pub mod figure;
 pub mod index;
 pub mod inspect;
 pub mod lines;

@@ -2,6 +2,7 @@
 //! ([`layout`], [`draw`]) and three backends drawing the same list: PNG ([`raster`]), SVG
 //! ([`svg`]) and PDF ([`pdf`]).
 
+pub mod build;
 pub mod draw;
 pub mod geom;
 pub mod heatmap;
@@ -10,6 +11,7 @@ pub mod layout;
 pub mod pdf;
 pub mod raster;
 pub mod scene;
+pub mod style;
 pub mod svg;
 pub mod text;
 pub mod ticks;
