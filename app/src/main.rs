@@ -3,6 +3,7 @@
 mod cmd;
 mod figure;
 mod progress;
+mod viewer;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;

@@ -1,0 +1,11 @@
+//! The desktop viewer: a pure [`state::ViewState`] changed only by [`state::Action`]s, drawn by
+//! a pure function of the state through the figure scene ([`draw`]); the window glue
+//! ([`window`]) only turns OS events into actions and shows the pixels.
+
+pub mod data;
+pub mod keys;
+pub mod lod;
+pub mod state;
+
+#[cfg(test)]
+mod tests;
