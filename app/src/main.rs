@@ -35,6 +35,8 @@ enum Command {
     Calibrate(cmd::calibrate::Args),
     /// Find and index every gap: states with (t, s), score, onset and Hall check.
     Index(cmd::index::Args),
+    /// Explore a map in a window: snap to features, label states, keep the work, export.
+    View(cmd::view::Args),
 }
 
 fn main() -> ExitCode {
@@ -47,6 +49,7 @@ fn main() -> ExitCode {
         Command::Palettes(a) => cmd::palettes::run(a),
         Command::Calibrate(a) => cmd::calibrate::run(a),
         Command::Index(a) => cmd::index::run(a),
+        Command::View(a) => cmd::view::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -8,3 +8,4 @@ pub mod lines;
 pub mod load_args;
 pub mod palettes;
 pub mod synth;
+pub mod view;

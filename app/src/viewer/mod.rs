@@ -3,9 +3,13 @@
 //! ([`window`]) only turns OS events into actions and shows the pixels.
 
 pub mod data;
+pub mod draw;
+pub mod export;
 pub mod keys;
 pub mod lod;
+pub mod project;
 pub mod state;
+pub mod window;
 
 #[cfg(test)]
 mod tests;

@@ -1202,9 +1202,11 @@ impl ViewState {
                                 self.add_label(t, s, ev, 0);
                                 self.changed_work();
                             }
-                            None => self.message = format!(
+                            None => {
+                                self.message = format!(
                                 "`{text}` is not a label: type t and s, e.g. `2 0` or `-1/3 2/3`"
-                            ),
+                            )
+                            }
                         },
                         TypingPurpose::Rename => {
                             if self.selected().is_some() {
