@@ -1,8 +1,13 @@
 //! fanmark: find, index and publish the gaps of Landau fans and Wannier diagrams.
 
+// `!(x > y)` is used on purpose: it is true for NaN, which is what a check rejecting bad values
+// needs.
+#![allow(clippy::neg_cmp_op_on_partial_ord)]
+
 mod cmd;
 mod figure;
 mod progress;
+mod viewer;
 
 use clap::{Parser, Subcommand};
 use std::process::ExitCode;
@@ -42,6 +47,8 @@ enum Command {
     Dualgate(cmd::dualgate::Args),
     /// Draw a publication figure (PNG, SVG or PDF) of one channel with lines and found states.
     Figure(cmd::figure::Args),
+    /// Explore a map in a window: snap to features, label states, keep the work, export.
+    View(cmd::view::Args),
 }
 
 fn main() -> ExitCode {
@@ -58,6 +65,7 @@ fn main() -> ExitCode {
         Command::Gaps(a) => cmd::gaps::run(a),
         Command::Dualgate(a) => cmd::dualgate::run(a),
         Command::Figure(a) => cmd::figure::run(a),
+        Command::View(a) => cmd::view::run(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

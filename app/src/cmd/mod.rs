@@ -3,8 +3,8 @@
 pub mod calibrate;
 pub mod demo;
 pub mod dualgate;
-pub mod gaps;
 pub mod figure;
+pub mod gaps;
 pub mod index;
 pub mod inspect;
 pub mod lines;
@@ -12,3 +12,4 @@ pub mod load_args;
 pub mod palettes;
 pub mod sdh;
 pub mod synth;
+pub mod view;

@@ -1046,6 +1046,7 @@ mod tests {
             b_onset_t: Some(2.0),
             b_max_t: Some(9.0),
             hall_check: None,
+            confidence: 1.0,
             flags: Vec::new(),
         }
     }

@@ -6,7 +6,7 @@ use super::draw::{DisplayList, Item, Stroke};
 use super::geom::Rect;
 use super::heatmap::{self, ColorMapping};
 use super::layout::layout;
-use super::scene::{Figure, HeatMap};
+use super::scene::{Figure, HeatMap, Panel};
 use super::text::{glyph, TextBlock};
 use fanmark_core::{Error, Result};
 use tiny_skia::{FillRule, Mask, Paint, PathBuilder, Pixmap, Transform};
@@ -47,6 +47,21 @@ pub fn render_rgba(fig: &Figure) -> Result<Pixmap> {
 
 /// Draw an already laid-out figure.
 pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
+    draw_list_with(fig, list, &mut |p, m, w, h| {
+        let hm = p
+            .heatmap
+            .as_ref()
+            .expect("called for panels with a heat map");
+        heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h)
+    })
+}
+
+/// A source of heat-map layers: (panel, mapping, width, height) → straight-alpha RGBA, as
+/// [`heatmap_layer`] makes them. The viewer passes a cache here.
+pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Vec<u8> + 'a;
+
+/// Draw an already laid-out figure, taking each heat-map layer from `layer`.
+pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource) -> Result<Pixmap> {
     let (w, h) = fig.pixel_size();
     let mut pm = Pixmap::new(w, h).ok_or_else(|| {
         Error::invalid("figure", format!("cannot allocate a {w}×{h} pixel image"))
@@ -58,12 +73,15 @@ pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
         match item {
             Item::HeatMap { panel, rect } => {
                 let p = &fig.panels[*panel];
-                let (Some(hm), Some(m)) = (&p.heatmap, list.mappings[*panel]) else {
+                let (Some(_), Some(m)) = (&p.heatmap, list.mappings[*panel]) else {
                     continue;
                 };
                 let (x0, y0, x1, y1) = pixel_rect(rect, scale);
                 let (pw, ph) = ((x1 - x0).max(0) as u32, (y1 - y0).max(0) as u32);
-                let img = heatmap_layer(hm, &m, p.x_axis.range, p.y_axis.range, pw, ph);
+                let img = layer(p, &m, pw, ph);
+                if img.len() != (pw * ph * 4) as usize {
+                    continue;
+                }
                 blit_opaque(&mut pm, &img, x0, y0, pw, ph);
             }
             Item::ColorStrip { panel, rect } => {

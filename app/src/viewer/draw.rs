@@ -1,0 +1,818 @@
+//! Drawing: the view state as a figure scene (heat map panel, overlays, labels, an optional
+//! line-cut panel), rasterised through the figure backend, plus the status line and the key-map
+//! overlay. [`figure_of`] is a pure function of the state; [`Renderer`] adds a cache of the
+//! heat-map layer so that pointer moves and overlay changes redraw only the overlay.
+
+use super::data::ChannelChoice;
+use super::keys::help_lines;
+use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
+use crate::figure::draw::Item;
+use crate::figure::heatmap::ColorMapping;
+use crate::figure::layout::layout;
+use crate::figure::raster::{draw_list_with, heatmap_layer, pixel_rect};
+use crate::figure::scene::{
+    AxisSpec, ColorBar, ColorScale, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers,
+    Panel, Polyline, Resample, TextLabel, ValueRange,
+};
+use crate::figure::text::glyph;
+use fanmark_core::constants::E_OVER_H;
+use fanmark_core::line::{Family, FramePoint, FrameRect, Line};
+use fanmark_core::{Rational, Result};
+use ndarray::Array2;
+use tiny_skia::Pixmap;
+
+/// Screen resolution at scale factor 1, dots per inch (the common desktop convention).
+pub const SCREEN_DPI: f64 = 96.0;
+/// Height of the status line, logical px.
+pub const STATUS_PX: f64 = 22.0;
+
+/// Display unit of a frame's x axis: (label, SI value × factor = shown value).
+fn x_axis_unit(k: FrameKind) -> (&'static str, f64) {
+    match k {
+        FrameKind::GateField => ("V_g (V)", 1.0),
+        FrameKind::DensityField => ("n (10^{12} cm^{−2})", 1e-16),
+        FrameKind::FillingField => ("ν", 1.0),
+        FrameKind::Wannier => ("n/n_0", 1.0),
+    }
+}
+
+fn y_axis_label(k: FrameKind) -> &'static str {
+    match k {
+        FrameKind::Wannier => "φ/φ_0",
+        _ => "B (T)",
+    }
+}
+
+/// Everything the heat-map layer depends on; equal keys give equal layers.
+#[derive(Clone, Debug, PartialEq)]
+pub struct LayerKey {
+    frame: FrameKind,
+    channel: ChannelChoice,
+    palette: usize,
+    scale: ScaleKind,
+    clip_pct: f64,
+    view: Viewport,
+    size: (u32, u32),
+}
+
+/// Sample the channel over the viewport at `w`×`h` points (row 0 = bottom, y increasing).
+pub fn sample_view(s: &ViewState, w: usize, h: usize) -> (Array2<f64>, Vec<f64>, Vec<f64>) {
+    let v = s.view;
+    let xs: Vec<f64> = (0..w)
+        .map(|i| v.x0 + (i as f64 + 0.5) / w as f64 * (v.x1 - v.x0))
+        .collect();
+    let ys: Vec<f64> = (0..h)
+        .map(|i| v.y0 + (i as f64 + 0.5) / h as f64 * (v.y1 - v.y0))
+        .collect();
+    let Some(ch) = s.data.channel(s.channel) else {
+        return (Array2::from_elem((h, w), f64::NAN), xs, ys);
+    };
+    let frame = s.core_frame();
+    let (gx, gy) = (s.data.map.x(), s.data.map.y());
+    let gate = s.data.gate;
+    // Level-0 cells per output sample along the denser direction.
+    let (c0, _, _) = (gx.len() as f64, 0, 0);
+    let span_v = {
+        let a = frame.from_frame(FramePoint { x: v.x0, y: v.y1 });
+        let b = frame.from_frame(FramePoint { x: v.x1, y: v.y1 });
+        match (a, b) {
+            (Ok(a), Ok(b)) => (gate.gate_for_density(a.0) - gate.gate_for_density(b.0)).abs(),
+            _ => gx.max() - gx.min(),
+        }
+    };
+    let cells_x = span_v / (gx.max() - gx.min()).max(1e-300) * c0 / w as f64;
+    let cells_y = {
+        let b0 = frame.field_of_y(v.y0).unwrap_or(gy.min());
+        let b1 = frame.field_of_y(v.y1).unwrap_or(gy.max());
+        (b1 - b0).abs() / (gy.max() - gy.min()).max(1e-300) * gy.len() as f64 / h as f64
+    };
+    let cpp = cells_x.min(cells_y).max(1.0);
+    let (xs2, ys2) = (&xs, &ys);
+    let vals = ch.pyramid.sample(w, h, cpp, &|c, r| {
+        let (n, b) = frame
+            .from_frame(FramePoint {
+                x: xs2[c],
+                y: ys2[r],
+            })
+            .ok()?;
+        let fx = gx.fractional_index(gate.gate_for_density(n))?;
+        let fy = gy.fractional_index(b)?;
+        Some((fx, fy))
+    });
+    (vals, xs, ys)
+}
+
+/// Colour range (lo, hi) from a strided sample of `values`, clipping `clip_pct` % at each end;
+/// signed channels get a range symmetric about zero.
+pub fn colour_range(values: &Array2<f64>, clip_pct: f64, signed: bool, log: bool) -> (f64, f64) {
+    let stride = (values.len() / 200_000).max(1);
+    let mut v: Vec<f64> = values
+        .iter()
+        .step_by(stride)
+        .copied()
+        .filter(|x| x.is_finite() && (!log || *x > 0.0))
+        .collect();
+    if v.is_empty() {
+        return (0.0, 1.0);
+    }
+    v.sort_by(f64::total_cmp);
+    let q = |p: f64| v[((p / 100.0) * (v.len() - 1) as f64).round() as usize];
+    let (mut lo, mut hi) = (q(clip_pct), q(100.0 - clip_pct));
+    if signed && !log {
+        let m = lo.abs().max(hi.abs());
+        lo = -m;
+        hi = m;
+    }
+    if !(hi > lo) {
+        let d = if lo == 0.0 { 1.0 } else { lo.abs() * 0.5 };
+        return (lo - d, lo + d);
+    }
+    (lo, hi)
+}
+
+fn family_style(f: Family) -> LineStyle {
+    let (color, dash) = match f {
+        Family::Integer => ([255, 255, 255], vec![]),
+        Family::BrokenSymmetry => ([200, 230, 255], vec![4.0, 2.0]),
+        Family::CompositeFermion => ([255, 220, 120], vec![1.5, 1.5]),
+        Family::Satellite => ([170, 255, 190], vec![4.0, 1.5, 1.0, 1.5]),
+        Family::Wannier => ([255, 170, 230], vec![2.5, 1.5]),
+        Family::BrownZak => ([220, 220, 220], vec![1.0, 2.0]),
+    };
+    LineStyle {
+        color,
+        width_pt: 0.6,
+        dash_pt: dash,
+        outline: None,
+    }
+}
+
+fn ts_line(t: Rational, s: Rational) -> Line {
+    Line::gap(Family::Wannier, "view", t, s)
+}
+
+/// The visible polylines of `line` in the state's frame and viewport.
+fn clipped(s: &ViewState, line: &Line) -> Vec<Vec<(f64, f64)>> {
+    let v = s.view;
+    let Ok(rect) = FrameRect::new(v.x0, v.x1, v.y0, v.y1) else {
+        return Vec::new();
+    };
+    s.core_frame()
+        .clip(line, &rect)
+        .unwrap_or_default()
+        .into_iter()
+        .map(|seg| seg.points.iter().map(|p| (p.x, p.y)).collect())
+        .collect()
+}
+
+fn scaled(points: Vec<(f64, f64)>, fx: f64) -> Vec<(f64, f64)> {
+    points.into_iter().map(|(x, y)| (x * fx, y)).collect()
+}
+
+/// The map panel: heat map (values from `heat`), axes, colour bar and every overlay.
+fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
+    let (xl, fx) = x_axis_unit(s.frame);
+    let v = s.view;
+    let mut p = Panel::new(
+        AxisSpec {
+            label: xl.into(),
+            range: (v.x0 * fx, v.x1 * fx),
+        },
+        AxisSpec {
+            label: y_axis_label(s.frame).into(),
+            range: (v.y0, v.y1),
+        },
+    );
+    if let Some(h) = heat {
+        p.heatmap = Some(h);
+        p.colorbar = Some(ColorBar {
+            label: s.channel.label().0.into(),
+            width_mm: 3.0,
+        });
+    }
+    for l in s.shown_lines() {
+        for pts in clipped(s, l) {
+            p.lines.push(Polyline {
+                points: scaled(pts, fx),
+                style: family_style(l.family),
+            });
+        }
+    }
+    if s.overlays.show_states {
+        for st in s.data.states.iter().take(40) {
+            let line = ts_line(st.t, st.s);
+            let segs = clipped(s, &line);
+            for pts in &segs {
+                p.lines.push(Polyline {
+                    points: scaled(pts.clone(), fx),
+                    style: LineStyle {
+                        color: [120, 255, 255],
+                        width_pt: 0.9,
+                        dash_pt: vec![],
+                        outline: Some([0, 0, 0]),
+                    },
+                });
+            }
+            if let Some(seg) = segs.first() {
+                p.labels.push(TextLabel {
+                    text: super::state::ts_text(st.t, st.s),
+                    anchors: anchors(seg, fx),
+                    color: [0, 90, 110],
+                    size_pt: 7.0,
+                    background: Some([230, 255, 255]),
+                });
+            }
+        }
+    }
+    for l in s.work.labels.iter().filter(|l| !l.hidden) {
+        let sel = s.work.selected == Some(l.id);
+        let segs = clipped(s, &ts_line(l.t, l.s));
+        for pts in &segs {
+            p.lines.push(Polyline {
+                points: scaled(pts.clone(), fx),
+                style: LineStyle {
+                    color: if sel { [255, 80, 40] } else { [255, 200, 0] },
+                    width_pt: if sel { 1.8 } else { 1.2 },
+                    dash_pt: vec![],
+                    outline: Some([0, 0, 0]),
+                },
+            });
+        }
+        if let Some(seg) = segs.first() {
+            p.labels.push(TextLabel {
+                text: l.shown_text(),
+                anchors: anchors(seg, fx),
+                color: [0, 0, 0],
+                size_pt: 8.0,
+                background: Some(if sel {
+                    [255, 210, 190]
+                } else {
+                    [255, 240, 170]
+                }),
+            });
+        }
+    }
+    if s.overlays.highlight {
+        if let Some(&(t, sv, _)) = s.lines_under_pointer(8.0 * s.dpi_scale).first() {
+            for pts in clipped(s, &ts_line(t, sv)) {
+                p.lines.push(Polyline {
+                    points: scaled(pts, fx),
+                    style: LineStyle {
+                        color: [80, 255, 80],
+                        width_pt: 1.4,
+                        dash_pt: vec![3.0, 2.0],
+                        outline: None,
+                    },
+                });
+            }
+        }
+    }
+    if let Some(r) = s.readings.get(s.chosen) {
+        for pts in clipped(s, &ts_line(r.candidate.t, r.candidate.s)) {
+            p.lines.push(Polyline {
+                points: scaled(pts, fx),
+                style: LineStyle {
+                    color: [255, 120, 255],
+                    width_pt: 1.0,
+                    dash_pt: vec![2.0, 2.0],
+                    outline: None,
+                },
+            });
+        }
+    }
+    let frame = s.core_frame();
+    let picks: Vec<(f64, f64)> = s
+        .work
+        .picks
+        .iter()
+        .filter_map(|pk| {
+            frame
+                .to_frame(s.data.gate.density(pk.gate_v), pk.field_t)
+                .ok()
+                .map(|q| (q.x * fx, q.y))
+        })
+        .collect();
+    if !picks.is_empty() {
+        p.markers.push(Markers {
+            points: picks,
+            style: MarkerStyle {
+                shape: MarkerShape::Circle,
+                size_pt: 4.5,
+                fill: [255, 60, 200],
+                edge: [0, 0, 0],
+            },
+        });
+    }
+    if let Some((g, b, _)) = s.snapped() {
+        if let Ok(q) = frame.to_frame(s.data.gate.density(g), b) {
+            p.markers.push(Markers {
+                points: vec![(q.x * fx, q.y)],
+                style: MarkerStyle {
+                    shape: MarkerShape::Cross,
+                    size_pt: 7.0,
+                    fill: [0, 255, 0],
+                    edge: [0, 0, 0],
+                },
+            });
+        }
+    }
+    p
+}
+
+fn anchors(seg: &[(f64, f64)], fx: f64) -> Vec<(f64, f64)> {
+    let (a, b) = (seg[0], seg[seg.len() - 1]);
+    [0.85, 0.7, 0.55, 0.4, 0.25]
+        .iter()
+        .map(|t| ((a.0 + (b.0 - a.0) * t) * fx, a.1 + (b.1 - a.1) * t))
+        .collect()
+}
+
+/// A line cut: (x label, y label, points (x, value)) in display units.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Cut {
+    /// What x is, with unit.
+    pub x_label: String,
+    /// What the value is, with unit.
+    pub y_label: String,
+    /// (x, value) in display units, NaN-free.
+    pub points: Vec<(f64, f64)>,
+}
+
+/// The line cut the state asks for at the pointer (or the selected label for `Line`).
+pub fn cut_of(s: &ViewState) -> Option<Cut> {
+    let (vlabel, vf) = s.channel.label();
+    let m = &s.data.map;
+    let ch = s.data.channel(s.channel)?;
+    let values = &ch.pyramid.levels[0].values;
+    let pointer = s.pointer.and_then(|p| s.px_to_physical(p.0, p.1));
+    match s.cut {
+        CutKind::Off => None,
+        CutKind::Row => {
+            let (_, _, b) = pointer?;
+            let r = m.y().nearest_index(b)?;
+            let (xl, fx) = x_axis_unit(s.frame);
+            let frame = s.core_frame();
+            let points = m
+                .x()
+                .values()
+                .iter()
+                .enumerate()
+                .filter_map(|(j, &g)| {
+                    let v = values[[r, j]];
+                    let q = frame
+                        .to_frame(s.data.gate.density(g), m.y().values()[r])
+                        .ok()?;
+                    v.is_finite().then_some((q.x * fx, v * vf))
+                })
+                .collect();
+            Some(Cut {
+                x_label: xl.into(),
+                y_label: format!("{vlabel} at B = {:.3} T", m.y().values()[r]),
+                points,
+            })
+        }
+        CutKind::Column => {
+            let (g, _, _) = pointer?;
+            let c = m.x().nearest_index(g)?;
+            let points = m
+                .y()
+                .values()
+                .iter()
+                .enumerate()
+                .filter_map(|(i, &b)| {
+                    let v = values[[i, c]];
+                    v.is_finite().then_some((b, v * vf))
+                })
+                .collect();
+            Some(Cut {
+                x_label: "B (T)".into(),
+                y_label: format!("{vlabel} at V_g = {:.4} V", m.x().values()[c]),
+                points,
+            })
+        }
+        CutKind::Line => {
+            let (t, sv) = match s.selected() {
+                Some(l) => (l.t, l.s),
+                None => {
+                    let l = s.lines_under_pointer(8.0 * s.dpi_scale);
+                    let f = l.first()?;
+                    (f.0, f.1)
+                }
+            };
+            let n0 = s.data.n0_m2.unwrap_or(0.0);
+            let points = m
+                .y()
+                .values()
+                .iter()
+                .filter_map(|&b| {
+                    let n = t.to_f64() * E_OVER_H * b + sv.to_f64() * n0;
+                    let v = s
+                        .data
+                        .value_at(s.channel, s.data.gate.gate_for_density(n), b)?;
+                    Some((b, v * vf))
+                })
+                .collect();
+            Some(Cut {
+                x_label: "B (T)".into(),
+                y_label: format!("{vlabel} along {}", super::state::ts_text(t, sv)),
+                points,
+            })
+        }
+    }
+}
+
+/// The cut as CSV text: header with units, one row per point.
+pub fn cut_csv(c: &Cut) -> String {
+    let mut out = format!("# {}\n", c.y_label.replace('\n', " "));
+    out.push_str("x,value\n");
+    for (x, v) in &c.points {
+        out.push_str(&format!("{x},{v}\n"));
+    }
+    out
+}
+
+fn cut_panel(c: &Cut) -> Option<Panel> {
+    if c.points.len() < 2 {
+        return None;
+    }
+    let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+    for &(x, y) in &c.points {
+        x0 = x0.min(x);
+        x1 = x1.max(x);
+        y0 = y0.min(y);
+        y1 = y1.max(y);
+    }
+    if !(x1 > x0) {
+        return None;
+    }
+    if !(y1 > y0) {
+        y0 -= 1.0;
+        y1 += 1.0;
+    }
+    let pad = 0.05 * (y1 - y0);
+    let mut p = Panel::new(
+        AxisSpec {
+            label: c.x_label.clone(),
+            range: (x0, x1),
+        },
+        AxisSpec {
+            label: c.y_label.clone(),
+            range: (y0 - pad, y1 + pad),
+        },
+    );
+    p.lines.push(Polyline {
+        points: c.points.clone(),
+        style: LineStyle::solid([20, 60, 160], 0.8),
+    });
+    Some(p)
+}
+
+/// The heat map of the state at `w`×`h` samples with its resolved colours.
+pub fn heat_of(s: &ViewState, w: usize, h: usize) -> HeatMap {
+    let (values, xs, ys) = sample_view(s, w.max(2), h.max(2));
+    let fx = x_axis_unit(s.frame).1;
+    let vf = s.channel.label().1;
+    let values = values.mapv(|v| v * vf);
+    let log = s.scale == ScaleKind::Log;
+    let (lo, hi) = colour_range(&values, s.clip_pct, s.channel.signed(), log);
+    let pal = &fanmark_core::palette::builtin()[s.palette % fanmark_core::palette::builtin().len()];
+    let colors: Vec<[u8; 3]> = (0..256).map(|i| pal.sample(i as f64 / 255.0)).collect();
+    let scale = match s.scale {
+        ScaleKind::Linear => ColorScale::Linear,
+        ScaleKind::Log => ColorScale::Log,
+        ScaleKind::SymLog => ColorScale::SymLog {
+            linear_threshold: (lo.abs().max(hi.abs()) / 30.0).max(1e-300),
+        },
+    };
+    HeatMap {
+        values,
+        x: xs.iter().map(|x| x * fx).collect(),
+        y: ys,
+        colors,
+        scale,
+        range: ValueRange::Fixed(lo, hi),
+        resample: Resample::Nearest,
+        missing: Some([40, 40, 40]),
+    }
+}
+
+/// The figure of the state for a window of `w`×`h` physical px (the status line excluded),
+/// heat map sampled at `samples` (columns, rows). Pure.
+pub fn figure_of(s: &ViewState, w: u32, h: u32, samples: (usize, usize)) -> Figure {
+    let dpi = SCREEN_DPI * s.dpi_scale;
+    let mm = |px: u32| px.max(50) as f64 / dpi * 25.4;
+    let mut fig = Figure::new(mm(w), mm(h));
+    fig.dpi = dpi;
+    fig.font_pt = 9.0;
+    let heat = heat_of(s, samples.0, samples.1);
+    fig.panels.push(map_panel(s, Some(heat)));
+    if let Some(p) = cut_of(s).as_ref().and_then(cut_panel) {
+        fig.columns = 2;
+        fig.panels.push(p);
+    }
+    fig
+}
+
+/// The figure at publication size (what the view shows, for export): 178 mm wide at 300 dpi.
+pub fn export_figure(s: &ViewState) -> Figure {
+    let mut fig = figure_of(s, 1, 1, (1200, 800));
+    let aspect = s.window.1 as f64 / s.window.0.max(1) as f64;
+    fig.width_mm = 178.0;
+    fig.height_mm = (178.0 * aspect).clamp(60.0, 240.0);
+    fig.dpi = 300.0;
+    fig.font_pt = 7.0;
+    fig
+}
+
+/// Renders states to pixels, keeping the last heat-map layer.
+#[derive(Default)]
+pub struct Renderer {
+    layer: Option<(LayerKey, (u32, u32), Vec<u8>)>,
+    heat: Option<(LayerKey, HeatMap)>,
+    /// Heat-map layers computed (for checks and benchmarks).
+    pub layers_made: usize,
+}
+
+/// A rendered frame.
+pub struct Rendered {
+    /// Pixels (premultiplied RGBA), window size.
+    pub pixmap: Pixmap,
+    /// Plot area of the map panel, px.
+    pub plot: Option<PlotArea>,
+}
+
+impl Renderer {
+    /// Render the state into a `w`×`h` px image: figure, status line, help overlay.
+    pub fn render(&mut self, s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
+        let status = (STATUS_PX * s.dpi_scale).round() as u32;
+        let fh = h.saturating_sub(status).max(50);
+        let plot_w = (s.plot.x1 - s.plot.x0).max(2.0) as usize;
+        let plot_h = (s.plot.y1 - s.plot.y0).max(2.0) as usize;
+        let key = LayerKey {
+            frame: s.frame,
+            channel: s.channel,
+            palette: s.palette,
+            scale: s.scale,
+            clip_pct: s.clip_pct,
+            view: s.view,
+            size: (plot_w as u32, plot_h as u32),
+        };
+        let heat = match &self.heat {
+            Some((k, h)) if *k == key => h.clone(),
+            _ => {
+                let h = heat_of(s, plot_w.min(4096), plot_h.min(4096));
+                self.heat = Some((key.clone(), h.clone()));
+                h
+            }
+        };
+        let dpi = SCREEN_DPI * s.dpi_scale;
+        let mm = |px: u32| px as f64 / dpi * 25.4;
+        let mut fig = Figure::new(mm(w.max(50)), mm(fh));
+        fig.dpi = dpi;
+        fig.font_pt = 9.0;
+        fig.panels.push(map_panel(s, Some(heat)));
+        if let Some(p) = cut_of(s).as_ref().and_then(cut_panel) {
+            fig.columns = 2;
+            fig.panels.push(p);
+        }
+        let list = layout(&fig)?;
+        let scale = fig.pixel_size().0 as f64 / list.width;
+        let plot = list.items.iter().find_map(|i| match i {
+            Item::HeatMap { panel: 0, rect } => {
+                let (x0, y0, x1, y1) = pixel_rect(rect, scale);
+                Some(PlotArea {
+                    x0: x0 as f64,
+                    y0: y0 as f64,
+                    x1: x1 as f64,
+                    y1: y1 as f64,
+                })
+            }
+            _ => None,
+        });
+        let cache = &mut self.layer;
+        let made = &mut self.layers_made;
+        let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Vec<u8> {
+            if let Some((k, size, img)) = cache.as_ref() {
+                if *k == key && *size == (pw, ph) {
+                    return img.clone();
+                }
+            }
+            let Some(hm) = p.heatmap.as_ref() else {
+                return Vec::new();
+            };
+            let img = heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, pw, ph);
+            *made += 1;
+            *cache = Some((key.clone(), (pw, ph), img.clone()));
+            img
+        };
+        let fpm = draw_list_with(&fig, &list, &mut source)?;
+        let mut pm = Pixmap::new(w.max(1), h.max(1))
+            .ok_or_else(|| fanmark_core::Error::invalid("viewer", "cannot allocate the frame"))?;
+        pm.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
+        pm.draw_pixmap(
+            0,
+            0,
+            fpm.as_ref(),
+            &tiny_skia::PixmapPaint::default(),
+            tiny_skia::Transform::identity(),
+            None,
+        );
+        let px = (12.0 * s.dpi_scale) as f32;
+        let base = h as f64 - 6.0 * s.dpi_scale;
+        draw_string(
+            &mut pm,
+            &status_text(s),
+            6.0 * s.dpi_scale,
+            base,
+            px,
+            [0, 0, 0],
+        );
+        match &s.mode {
+            Mode::Help => draw_help(&mut pm, s.dpi_scale),
+            Mode::Typing { text, purpose } => {
+                let what = match purpose {
+                    super::state::TypingPurpose::NewLabel => "new label t s",
+                    super::state::TypingPurpose::Rename => "new text",
+                };
+                fill_rect(
+                    &mut pm,
+                    0,
+                    0,
+                    w,
+                    (26.0 * s.dpi_scale) as u32,
+                    [255, 255, 200],
+                    240,
+                );
+                draw_string(
+                    &mut pm,
+                    &format!("{what}: {text}▏  (Enter: done, Esc: cancel)"),
+                    8.0 * s.dpi_scale,
+                    18.0 * s.dpi_scale,
+                    px,
+                    [0, 0, 0],
+                );
+            }
+            Mode::Normal => {}
+        }
+        if !s.readings.is_empty() || s.fit.is_some() {
+            draw_readings(&mut pm, s, plot);
+        }
+        Ok(Rendered { pixmap: pm, plot })
+    }
+}
+
+fn fmt_opt(v: Option<f64>, digits: usize) -> String {
+    v.map_or("—".into(), |x| format!("{x:.digits$}"))
+}
+
+/// The status line: frame, channel, read-outs under the pointer, lines there, last message.
+pub fn status_text(s: &ViewState) -> String {
+    let mut t = format!("{} {}", s.frame.short(), s.channel.short());
+    if let Some(r) = s.readout() {
+        let (_, vf) = s.channel.label();
+        t.push_str(&format!(
+            "  Vg {:.3} V  n {:.4}e12 cm⁻²  D —  B {:.3} T  ν {:.2}  φ/φ₀ {}  n/n₀ {}  value {}",
+            r.gate_v,
+            r.n_m2 * 1e-16,
+            r.b_t,
+            r.nu,
+            fmt_opt(r.phi_over_phi0, 3),
+            fmt_opt(r.n_over_n0, 3),
+            fmt_opt(r.value.map(|v| v * vf), 4),
+        ));
+        if !r.lines.is_empty() {
+            let l: Vec<String> = r
+                .lines
+                .iter()
+                .take(3)
+                .map(|(a, b, _)| format!("({a},{b})"))
+                .collect();
+            t.push_str(&format!("  lines {}", l.join(" ")));
+        }
+    }
+    t.push_str(&format!(
+        "  picks {}  labels {}",
+        s.work.picks.len(),
+        s.work.labels.len()
+    ));
+    if !s.message.is_empty() {
+        t.push_str(&format!("  · {}", s.message));
+    }
+    t
+}
+
+fn draw_readings(pm: &mut Pixmap, s: &ViewState, plot: Option<PlotArea>) {
+    let d = s.dpi_scale;
+    let x = plot.map_or(10.0, |p| p.x0 + 8.0 * d);
+    let mut y = plot.map_or(30.0, |p| p.y0 + 16.0 * d);
+    let mut lines = Vec::new();
+    if let Some(f) = &s.fit {
+        lines.push(format!(
+            "free fit: t̂ = {:.3}  χ²ᵣ = {:.2}  ({} points)",
+            f.slope / E_OVER_H,
+            f.chi2_reduced,
+            f.points
+        ));
+    }
+    for (i, r) in s.readings.iter().take(6).enumerate() {
+        let hall = r.hall.as_ref().map_or("—".to_string(), |h| {
+            format!("{} ({:.2})", h.verdict, h.sigma_xy_e2h)
+        });
+        lines.push(format!(
+            "{} {}  {:.2}σ  Hall {}",
+            if i == s.chosen { "▶" } else { " " },
+            super::state::ts_text(r.candidate.t, r.candidate.s),
+            r.candidate.residual_sigma,
+            hall
+        ));
+    }
+    let h = (lines.len() as f64 * 15.0 + 8.0) * d;
+    fill_rect(
+        pm,
+        (x - 4.0 * d) as i64 as u32,
+        (y - 13.0 * d).max(0.0) as u32,
+        (300.0 * d) as u32,
+        h as u32,
+        [255, 255, 255],
+        220,
+    );
+    for l in lines {
+        draw_string(pm, &l, x, y, (11.0 * d) as f32, [0, 0, 0]);
+        y += 15.0 * d;
+    }
+}
+
+fn draw_help(pm: &mut Pixmap, d: f64) {
+    let lines = help_lines();
+    let (w, h) = (pm.width(), pm.height());
+    fill_rect(pm, 0, 0, w, h, [20, 20, 30], 225);
+    let col_h = ((h as f64 - 40.0 * d) / (15.0 * d)).max(1.0) as usize;
+    draw_string(
+        pm,
+        "fanmark viewer — keys",
+        20.0 * d,
+        22.0 * d,
+        (14.0 * d) as f32,
+        [255, 255, 255],
+    );
+    for (i, l) in lines.iter().enumerate() {
+        let col = i / col_h;
+        let row = i % col_h;
+        draw_string(
+            pm,
+            l,
+            20.0 * d + col as f64 * 420.0 * d,
+            44.0 * d + row as f64 * 15.0 * d,
+            (11.5 * d) as f32,
+            if l.starts_with('—') {
+                [255, 210, 120]
+            } else {
+                [235, 235, 235]
+            },
+        );
+    }
+}
+
+/// Blend a rectangle of `color` at `alpha` (0…255) into the pixmap.
+fn fill_rect(pm: &mut Pixmap, x: u32, y: u32, w: u32, h: u32, color: [u8; 3], alpha: u8) {
+    let (pw, ph) = (pm.width(), pm.height());
+    let data = pm.data_mut();
+    let a = alpha as u32;
+    for r in y..(y + h).min(ph) {
+        for c in x..(x + w).min(pw) {
+            let i = ((r * pw + c) * 4) as usize;
+            for k in 0..3 {
+                data[i + k] = ((color[k] as u32 * a + data[i + k] as u32 * (255 - a)) / 255) as u8;
+            }
+            data[i + 3] = 255;
+        }
+    }
+}
+
+/// Draw plain text with its baseline starting at (x, y) px.
+pub fn draw_string(pm: &mut Pixmap, text: &str, x: f64, y: f64, px: f32, color: [u8; 3]) {
+    let (pw, ph) = (pm.width() as i64, pm.height() as i64);
+    let data = pm.data_mut();
+    let mut pen = x;
+    for c in text.chars() {
+        let g = glyph(c, px);
+        let (m, cov) = (&g.0, &g.1);
+        let u0 = pen.round() as i64 + m.xmin as i64;
+        let v0 = y.round() as i64 - m.ymin as i64 - m.height as i64;
+        for gy in 0..m.height {
+            for gx in 0..m.width {
+                let a = cov[gy * m.width + gx] as u32;
+                let (dx, dy) = (u0 + gx as i64, v0 + gy as i64);
+                if a == 0 || dx < 0 || dy < 0 || dx >= pw || dy >= ph {
+                    continue;
+                }
+                let d = ((dy * pw + dx) * 4) as usize;
+                for k in 0..3 {
+                    data[d + k] =
+                        ((color[k] as u32 * a + data[d + k] as u32 * (255 - a)) / 255) as u8;
+                }
+            }
+        }
+        pen += m.advance_width as f64;
+    }
+}

@@ -1,0 +1,157 @@
+//! Level-of-detail pyramid of a channel: level 0 is the map grid, each further level averages
+//! 2 × 2 cells of the one below (ignoring NaN). A view samples the coarsest level that still has
+//! at least one cell per output pixel, so a redraw costs the same on a 10⁸-point map as on a
+//! small one.
+
+use super::data::bilinear;
+use ndarray::Array2;
+use rayon::prelude::*;
+
+/// One level of the pyramid.
+#[derive(Debug)]
+pub struct Level {
+    /// Values, shape (rows, columns); cell (i, j) covers level-0 cells i·2ᵏ…(i+1)·2ᵏ − 1.
+    pub values: Array2<f64>,
+    /// 2ᵏ: level-0 cells per cell of this level along each axis.
+    pub factor: usize,
+}
+
+/// The pyramid of one channel.
+#[derive(Debug)]
+pub struct Pyramid {
+    /// Levels, finest first.
+    pub levels: Vec<Level>,
+}
+
+fn halve(a: &Array2<f64>) -> Array2<f64> {
+    let (ny, nx) = a.dim();
+    let (my, mx) = (ny.div_ceil(2), nx.div_ceil(2));
+    let rows: Vec<Vec<f64>> = (0..my)
+        .into_par_iter()
+        .map(|i| {
+            (0..mx)
+                .map(|j| {
+                    let (mut s, mut n) = (0.0, 0u32);
+                    for di in 0..2 {
+                        for dj in 0..2 {
+                            let (r, c) = (2 * i + di, 2 * j + dj);
+                            if r < ny && c < nx {
+                                let v = a[[r, c]];
+                                if v.is_finite() {
+                                    s += v;
+                                    n += 1;
+                                }
+                            }
+                        }
+                    }
+                    if n == 0 {
+                        f64::NAN
+                    } else {
+                        s / n as f64
+                    }
+                })
+                .collect()
+        })
+        .collect();
+    Array2::from_shape_fn((my, mx), |(i, j)| rows[i][j])
+}
+
+impl Pyramid {
+    /// Build levels until the coarsest has at most 512 cells along its longer side.
+    pub fn new(values: Array2<f64>) -> Pyramid {
+        let mut levels = vec![Level { values, factor: 1 }];
+        loop {
+            let last = levels.last().expect("at least level 0");
+            let (ny, nx) = last.values.dim();
+            if ny.max(nx) <= 512 || ny < 2 || nx < 2 {
+                break;
+            }
+            let next = Level {
+                values: halve(&last.values),
+                factor: last.factor * 2,
+            };
+            levels.push(next);
+        }
+        Pyramid { levels }
+    }
+
+    /// The coarsest level with at most `cells_per_pixel` ≥ 1 level-0 cells per level cell
+    /// (the level whose cells are no larger than one output pixel).
+    pub fn level_for(&self, cells_per_pixel: f64) -> &Level {
+        let mut best = &self.levels[0];
+        for l in &self.levels {
+            if (l.factor as f64) <= cells_per_pixel.max(1.0) {
+                best = l;
+            }
+        }
+        best
+    }
+
+    /// Sample a `width`×`height` grid (row 0 at the top): `at(column, row)` gives the level-0
+    /// fractional (column, row) index of each output sample, or `None` outside the data;
+    /// `cells_per_pixel` chooses the level. NaN where there is no data.
+    pub fn sample(
+        &self,
+        width: usize,
+        height: usize,
+        cells_per_pixel: f64,
+        at: &(dyn Fn(usize, usize) -> Option<(f64, f64)> + Sync),
+    ) -> Array2<f64> {
+        let level = self.level_for(cells_per_pixel);
+        let f = level.factor as f64;
+        let off = (f - 1.0) / 2.0;
+        let rows: Vec<f64> = (0..height)
+            .into_par_iter()
+            .flat_map_iter(|r| {
+                (0..width).map(move |c| match at(c, r) {
+                    Some((fx, fy)) => {
+                        let (a, b) = ((fx - off) / f, (fy - off) / f);
+                        let (ny, nx) = level.values.dim();
+                        let a = a.clamp(0.0, (nx - 1) as f64);
+                        let b = b.clamp(0.0, (ny - 1) as f64);
+                        bilinear(&level.values, a, b)
+                    }
+                    None => f64::NAN,
+                })
+            })
+            .collect();
+        Array2::from_shape_vec((height, width), rows).expect("width × height samples")
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn levels_average_two_by_two_ignoring_nan() {
+        let a = Array2::from_shape_fn((1100, 4), |(i, j)| if j == 1 { f64::NAN } else { i as f64 });
+        let p = Pyramid::new(a);
+        assert!(p.levels.len() >= 2);
+        let l1 = &p.levels[1].values;
+        assert_eq!(l1.dim(), (550, 2));
+        // Rows 0 and 1 average to 0.5; the NaN column is ignored in the first cell.
+        assert_eq!(l1[[0, 0]], 0.5);
+        assert_eq!(l1[[0, 1]], 0.5);
+        assert!(p.levels.last().unwrap().values.dim().0 <= 512);
+    }
+
+    #[test]
+    fn coarse_level_is_chosen_only_when_pixels_are_large() {
+        let a = Array2::from_shape_fn((2048, 2048), |(i, j)| (i + j) as f64);
+        let p = Pyramid::new(a);
+        assert_eq!(p.level_for(1.0).factor, 1);
+        assert_eq!(p.level_for(3.9).factor, 2);
+        assert_eq!(p.level_for(4.0).factor, 4);
+        // Sampling a linear ramp at any level gives the ramp back (averaging preserves it).
+        let s = p.sample(4, 4, 4.0, &|c, r| {
+            Some(((c + 1) as f64 * 400.0, (r + 1) as f64 * 400.0))
+        });
+        for r in 0..4 {
+            for c in 0..4 {
+                let want = (c + r + 2) as f64 * 400.0;
+                assert!((s[[r, c]] - want).abs() < 1e-9, "{r},{c}: {}", s[[r, c]]);
+            }
+        }
+    }
+}

@@ -1,0 +1,429 @@
+//! Unit tests of the pure viewer state: actions on a small synthetic fan, no display.
+
+use super::data::{BuildOptions, ChannelChoice, ViewData};
+use super::keys::{action_for, bindings, Key};
+use super::state::*;
+use fanmark_core::constants::{E_OVER_H, VON_KLITZING_R_K};
+use fanmark_core::gate::SingleGate;
+use fanmark_core::index::stack::Stack;
+use fanmark_core::map::{Axis, Channel, ChannelKind, Map, Quantity};
+use fanmark_core::Rational;
+use ndarray::Array2;
+use std::sync::{Arc, OnceLock};
+
+/// Lever arm of the test device, m⁻²/V (7·10¹⁰ cm⁻²/V, a typical hBN/graphite gate).
+pub const ALPHA: f64 = 7e14;
+
+/// A monolayer fan: R_xx dips on ν = ±2, ±6, ±10, ±14 with R_xy on the matching plateaus.
+pub fn fan_map(nx: usize, ny: usize) -> Map {
+    let x = Axis::uniform("vg", Quantity::Gate, -40.0, 80.0 / (nx - 1) as f64, nx).unwrap();
+    let y = Axis::uniform("b", Quantity::Field, 0.5, 8.5 / (ny - 1) as f64, ny).unwrap();
+    let (xv, yv) = (x.values().to_vec(), y.values().to_vec());
+    let mut rxx = Array2::zeros((ny, nx));
+    let mut rxy = Array2::zeros((ny, nx));
+    for (i, &b) in yv.iter().enumerate() {
+        let nb = E_OVER_H * b;
+        for (j, &vg) in xv.iter().enumerate() {
+            let n = ALPHA * vg;
+            let mut dip = 0.0;
+            for nu in [-14.0, -10.0, -6.0, -2.0, 2.0, 6.0, 10.0, 14.0] {
+                dip += (-((n - nu * nb) / (0.5 * nb)).powi(2)).exp();
+            }
+            rxx[[i, j]] = 100.0 + 1000.0 * (1.0 - dip.min(1.0));
+            let nu = n / nb;
+            let plateau = if nu.abs() < 0.5 {
+                f64::INFINITY
+            } else {
+                nu.signum() * (4.0 * ((nu.abs() - 2.0) / 4.0).round().max(0.0) + 2.0)
+            };
+            rxy[[i, j]] = VON_KLITZING_R_K / plateau;
+        }
+    }
+    let mut m = Map::new(x, y);
+    m.add_channel(Channel::new("rxx", ChannelKind::Rxx, rxx))
+        .unwrap();
+    m.add_channel(Channel::new("rxy", ChannelKind::Rxy, rxy))
+        .unwrap();
+    m
+}
+
+/// The shared test data (built once).
+pub fn data() -> Arc<ViewData> {
+    static D: OnceLock<Arc<ViewData>> = OnceLock::new();
+    D.get_or_init(|| {
+        let mut o = BuildOptions::new(Stack::Monolayer);
+        o.index = false;
+        o.fallback_gate = SingleGate {
+            alpha_m2_per_v: ALPHA,
+            v_cnp: 0.0,
+        };
+        Arc::new(ViewData::build(fan_map(321, 86), None, String::new(), &o).unwrap())
+    })
+    .clone()
+}
+
+fn state() -> ViewState {
+    let mut s = ViewState::new(data());
+    s.apply(Action::PlotArea(PlotArea {
+        x0: 100.0,
+        y0: 50.0,
+        x1: 1100.0,
+        y1: 750.0,
+    }));
+    s
+}
+
+fn close(a: f64, b: f64, rel: f64) -> bool {
+    (a - b).abs() <= rel * a.abs().max(b.abs()).max(1e-300)
+}
+
+#[test]
+fn full_view_covers_the_map_in_gate_volts_and_tesla() {
+    let s = state();
+    assert_eq!((s.view.x0, s.view.x1), (-40.0, 40.0));
+    assert_eq!((s.view.y0, s.view.y1), (0.5, 9.0));
+    // The plot's corners are the map's corners (y up on screen).
+    let (x, y) = s.px_to_frame(100.0, 750.0);
+    assert!(close(x, -40.0, 1e-12) && close(y, 0.5, 1e-12));
+}
+
+#[test]
+fn panning_moves_the_content_with_the_pointer() {
+    let mut s = state();
+    let before = s.px_to_frame(400.0, 300.0);
+    s.apply(Action::PanBy(50.0, -20.0));
+    let after = s.px_to_frame(450.0, 280.0);
+    assert!(close(before.0, after.0, 1e-12) && close(before.1, after.1, 1e-12));
+    // 50 px of a 1000 px plot spanning 80 V is 4 V.
+    assert!(close(s.view.x0, -44.0, 1e-12));
+}
+
+#[test]
+fn dragging_with_the_left_button_pans_and_a_click_does_not() {
+    let mut s = state();
+    let v0 = s.view;
+    s.apply(Action::Pointer(500.0, 400.0));
+    s.apply(Action::Press(Button::Left, false));
+    s.apply(Action::Pointer(502.0, 401.0));
+    assert_eq!(
+        s.view, v0,
+        "a jitter under the click tolerance does not pan"
+    );
+    s.apply(Action::Pointer(600.0, 400.0));
+    s.apply(Action::Release(Button::Left));
+    assert!(
+        close(s.view.x0, -40.0 - 100.0 * 0.08 + 2.0 * 0.08, 1e-9),
+        "{:?}",
+        s.view
+    );
+}
+
+#[test]
+fn wheel_zoom_keeps_the_point_under_the_pointer() {
+    let mut s = state();
+    let p = (321.0, 654.0);
+    let before = s.px_to_frame(p.0, p.1);
+    s.apply(Action::ZoomAt(p.0, p.1, 2.0));
+    let after = s.px_to_frame(p.0, p.1);
+    assert!(close(before.0, after.0, 1e-12) && close(before.1, after.1, 1e-12));
+    assert!(close(s.view.x1 - s.view.x0, 40.0, 1e-12));
+    assert!(close(s.view.y1 - s.view.y0, 4.25, 1e-12));
+}
+
+#[test]
+fn box_zoom_shows_exactly_the_box() {
+    let mut s = state();
+    let a = s.px_to_frame(200.0, 600.0);
+    let b = s.px_to_frame(700.0, 100.0);
+    s.apply(Action::Pointer(700.0, 100.0));
+    s.apply(Action::ZoomBox((700.0, 100.0), (200.0, 600.0)));
+    assert!(close(s.view.x0, a.0, 1e-12) && close(s.view.x1, b.0, 1e-12));
+    assert!(close(s.view.y0, a.1, 1e-12) && close(s.view.y1, b.1, 1e-12));
+    s.apply(Action::ResetView);
+    assert_eq!((s.view.x0, s.view.x1), (-40.0, 40.0));
+}
+
+#[test]
+fn frame_switch_keeps_the_physical_point_under_the_pointer() {
+    let mut s = state();
+    s.apply(Action::ZoomAt(600.0, 300.0, 1.7));
+    let p = (640.0, 260.0);
+    s.apply(Action::Pointer(p.0, p.1));
+    let (_, n, b) = s.px_to_physical(p.0, p.1).unwrap();
+    for k in [
+        FrameKind::DensityField,
+        FrameKind::FillingField,
+        FrameKind::GateField,
+        FrameKind::FillingField,
+        FrameKind::DensityField,
+    ] {
+        s.apply(Action::SetFrame(k));
+        assert_eq!(s.frame, k);
+        let (_, n2, b2) = s.px_to_physical(p.0, p.1).unwrap();
+        assert!(close(n, n2, 1e-9) && close(b, b2, 1e-9), "{k:?}: {n2} {b2}");
+    }
+    // Without a moiré cell the Wannier frame is refused and the frame stays.
+    s.apply(Action::SetFrame(FrameKind::Wannier));
+    assert_eq!(s.frame, FrameKind::DensityField);
+    assert_eq!(s.frames().len(), 3);
+}
+
+#[test]
+fn filling_frame_puts_constant_nu_lines_vertical() {
+    let mut s = state();
+    s.apply(Action::SetFrame(FrameKind::FillingField));
+    // ν = 6 at two fields lands on the same pixel column.
+    let a = s.physical_to_px(6.0 * E_OVER_H * 3.0, 3.0).unwrap();
+    let b = s.physical_to_px(6.0 * E_OVER_H * 8.0, 8.0).unwrap();
+    assert!((a.0 - b.0).abs() < 1e-6 && (a.1 - b.1).abs() > 100.0);
+}
+
+#[test]
+fn snapping_picks_the_nearest_feature_within_the_radius() {
+    let mut s = state();
+    assert!(!s.data.features.points().is_empty());
+    let target = (6.0 * E_OVER_H * 6.0, 6.0);
+    let (px, py) = s.physical_to_px(target.0, target.1).unwrap();
+    let p = (px + 3.0, py - 2.0);
+    s.apply(Action::Pointer(p.0, p.1));
+    let (g, b, _) = s.snapped().expect("a feature within 12 px");
+    // Brute force: the nearest feature point in pixels.
+    let best = s
+        .data
+        .features
+        .points()
+        .iter()
+        .map(|m| {
+            let q = s.physical_to_px(ALPHA * m.gate_v, m.field_t).unwrap();
+            ((q.0 - p.0).hypot(q.1 - p.1), m)
+        })
+        .min_by(|a, b| a.0.total_cmp(&b.0))
+        .unwrap();
+    assert_eq!((g, b), (best.1.gate_v, best.1.field_t));
+    // The snapped feature sits on ν = 6 to within a grid step.
+    assert!((ALPHA * g / (E_OVER_H * b) - 6.0).abs() < 0.2);
+    // Far from every feature nothing snaps; with snapping off nothing snaps.
+    s.apply(Action::ToggleSnap);
+    assert!(s.snapped().is_none());
+}
+
+/// Pick points on the ν = `nu` ridge at the given fields.
+fn pick_ridge(s: &mut ViewState, nu: f64, fields: &[f64]) {
+    for &b in fields {
+        let (x, y) = s.physical_to_px(nu * E_OVER_H * b, b).unwrap();
+        s.apply(Action::Pointer(x + 2.0, y));
+        s.apply(Action::PickHere);
+    }
+}
+
+#[test]
+fn a_ridge_reads_as_its_filling_and_accept_undo_redo_work() {
+    let mut s = state();
+    // Raw pointer points (snapping is tested on its own).
+    s.apply(Action::ToggleSnap);
+    pick_ridge(&mut s, 6.0, &[3.0, 4.5, 6.0, 7.5, 8.5]);
+    assert_eq!(s.work.picks.len(), 5);
+    let fit = s.fit.expect("a free fit of five points");
+    assert!(
+        close(fit.slope / E_OVER_H, 6.0, 0.05),
+        "slope {}",
+        fit.slope / E_OVER_H
+    );
+    let best = &s.readings[0];
+    assert_eq!(best.candidate.t, Rational::integer(6));
+    assert_eq!(best.candidate.s, Rational::ZERO);
+    // R_xy sits on h/6e² along the line: the Hall check agrees.
+    assert_eq!(best.hall.as_ref().unwrap().verdict, "agrees");
+    s.apply(Action::Accept);
+    assert_eq!(s.work.labels.len(), 1);
+    assert_eq!(s.work.labels[0].t, Rational::integer(6));
+    assert!(s.work.picks.is_empty());
+    assert_eq!(s.work.labels[0].evidence.picks.len(), 5);
+    s.apply(Action::Undo);
+    assert!(s.work.labels.is_empty());
+    assert_eq!(s.work.picks.len(), 5, "undo brings the ridge back");
+    s.apply(Action::Redo);
+    assert_eq!(s.work.labels.len(), 1);
+    assert_eq!(s.work.labels[0].shown_text(), "ν = 6");
+    // Each pick was one undo step too.
+    for _ in 0..6 {
+        s.apply(Action::Undo);
+    }
+    assert!(s.work.labels.is_empty() && s.work.picks.is_empty());
+    s.apply(Action::Undo);
+    assert_eq!(s.message, "nothing to undo");
+}
+
+#[test]
+fn accept_without_a_ridge_changes_nothing() {
+    let mut s = state();
+    let r = s.revision;
+    s.apply(Action::Accept);
+    assert!(s.work.labels.is_empty());
+    assert_eq!(s.revision, r);
+    assert!(s.undo.is_empty());
+}
+
+#[test]
+fn typed_labels_rename_hide_retarget_and_delete() {
+    let mut s = state();
+    s.apply(Action::BeginTyping(TypingPurpose::NewLabel));
+    for c in "-1/3 2/3".chars() {
+        s.apply(Action::Type(c));
+    }
+    s.apply(Action::Commit);
+    let l = &s.work.labels[0];
+    assert_eq!(
+        (l.t, l.s),
+        (Rational::new(-1, 3).unwrap(), Rational::new(2, 3).unwrap())
+    );
+    assert_eq!(l.shown_text(), "(-1/3, 2/3)");
+    s.apply(Action::BeginTyping(TypingPurpose::Rename));
+    for c in "CI".chars() {
+        s.apply(Action::Type(c));
+    }
+    s.apply(Action::Commit);
+    assert_eq!(s.work.labels[0].shown_text(), "CI");
+    s.apply(Action::ToggleHidden);
+    assert!(s.work.labels[0].hidden);
+    // A typed label has no other reading to move to.
+    s.apply(Action::Retarget);
+    assert_eq!(s.work.labels[0].t, Rational::new(-1, 3).unwrap());
+    s.apply(Action::DeleteSelected);
+    assert!(s.work.labels.is_empty());
+    s.apply(Action::Undo);
+    assert!(s.work.labels[0].hidden);
+    s.apply(Action::Undo);
+    assert!(!s.work.labels[0].hidden);
+    assert_eq!(s.work.labels[0].shown_text(), "CI");
+    // Bad text is refused with a message and no label.
+    s.apply(Action::BeginTyping(TypingPurpose::NewLabel));
+    s.apply(Action::Type('x'));
+    s.apply(Action::Commit);
+    assert_eq!(s.work.labels.len(), 1);
+    assert!(s.message.contains("not a label"));
+}
+
+#[test]
+fn retarget_moves_a_label_to_its_next_reading() {
+    let mut s = state();
+    // Only three close points: the fit is loose and several t fit.
+    s.apply(Action::ToggleSnap);
+    pick_ridge(&mut s, 6.0, &[7.0, 7.6, 8.2]);
+    s.apply(Action::DenominatorBy(3));
+    assert!(s.readings.len() >= 2, "{} readings", s.readings.len());
+    s.apply(Action::Accept);
+    let first = (s.work.labels[0].t, s.work.labels[0].s);
+    s.apply(Action::Retarget);
+    let l = &s.work.labels[0];
+    let want = &l.evidence.readings[1].candidate;
+    assert_eq!((l.t, l.s), (want.t, want.s));
+    assert_ne!((l.t, l.s), first);
+}
+
+#[test]
+fn channel_palette_scale_and_contrast_cycle() {
+    let mut s = state();
+    assert_eq!(s.channels().len(), 6);
+    s.apply(Action::CycleChannel(1));
+    assert_eq!(s.channel, ChannelChoice::Rxy);
+    s.apply(Action::CycleChannel(-2));
+    assert_eq!(s.channel, ChannelChoice::DsxyDn);
+    s.apply(Action::CyclePalette(-1));
+    assert_eq!(s.palette, fanmark_core::palette::builtin().len() - 1);
+    s.apply(Action::CycleScale);
+    assert_eq!(s.scale, ScaleKind::Log);
+    s.apply(Action::Contrast(100.0));
+    assert_eq!(s.clip_pct, 20.0);
+}
+
+#[test]
+fn overlay_toggles_bound_the_lines_shown() {
+    let mut s = state();
+    let ints = s.shown_lines().len();
+    assert!(ints > 0);
+    assert!(s
+        .shown_lines()
+        .iter()
+        .all(|l| l.family == fanmark_core::line::Family::Integer));
+    s.apply(Action::ToggleFamily(
+        fanmark_core::line::Family::CompositeFermion,
+    ));
+    let with_cf = s.shown_lines().len();
+    assert!(with_cf > ints);
+    s.apply(Action::DenominatorBy(-5));
+    assert_eq!(s.overlays.den_max, 1);
+    assert!(s
+        .shown_lines()
+        .iter()
+        .all(|l| l.ts().unwrap().0.denom() == 1));
+}
+
+#[test]
+fn readout_reports_filling_and_the_line_under_the_pointer() {
+    let mut s = state();
+    let b = 5.0;
+    let (x, y) = s.physical_to_px(10.0 * E_OVER_H * b, b).unwrap();
+    s.apply(Action::Pointer(x + 1.0, y));
+    let r = s.readout().unwrap();
+    assert!((r.nu - 10.0).abs() < 0.2, "ν = {}", r.nu);
+    assert!(close(r.b_t, b, 1e-3));
+    assert!(close(r.gate_v * ALPHA, r.n_m2, 1e-9));
+    assert!(r.value.unwrap() < 300.0, "R_xx is small on the ν = 10 dip");
+    assert_eq!(r.lines[0].0, Rational::integer(10));
+}
+
+#[test]
+fn resize_keeps_the_plot_proportional_and_records_scale() {
+    let mut s = state();
+    s.apply(Action::Resize {
+        width: 2560,
+        height: 1600,
+        scale: 2.0,
+    });
+    assert_eq!(s.window, (2560, 1600));
+    assert_eq!(s.dpi_scale, 2.0);
+    assert!(close(s.plot.x1, 2200.0, 1e-12));
+}
+
+#[test]
+fn every_key_binding_is_unique_and_typing_captures_keys() {
+    let b = bindings();
+    for (i, x) in b.iter().enumerate() {
+        for y in &b[i + 1..] {
+            assert!(
+                !(x.key == y.key && x.ctrl == y.ctrl),
+                "{:?} bound twice",
+                x.key
+            );
+        }
+    }
+    assert_eq!(
+        action_for(Key::Char('f'), false, &Mode::Normal),
+        Some(Action::CycleFrame(1))
+    );
+    assert_eq!(
+        action_for(Key::Char('z'), true, &Mode::Normal),
+        Some(Action::Undo)
+    );
+    assert_eq!(action_for(Key::Char('z'), false, &Mode::Normal), None);
+    let typing = Mode::Typing {
+        purpose: TypingPurpose::NewLabel,
+        text: String::new(),
+    };
+    assert_eq!(
+        action_for(Key::Char('f'), false, &typing),
+        Some(Action::Type('f'))
+    );
+    assert_eq!(action_for(Key::Enter, false, &typing), Some(Action::Commit));
+    assert_eq!(
+        action_for(Key::Escape, false, &Mode::Help),
+        Some(Action::ToggleHelp)
+    );
+}
+
+#[test]
+fn quit_asks_to_save_first() {
+    let mut s = state();
+    assert_eq!(s.apply(Action::Quit), vec![Effect::Save, Effect::Quit]);
+}
