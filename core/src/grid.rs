@@ -421,14 +421,7 @@ pub fn grid_sweeps(
                 stepped_quantity,
                 channels,
             };
-            return Ok(grid_regular(
-                parts,
-                sweeps,
-                axis,
-                swept_on_x,
-                opts,
-                points_read,
-            ));
+            return grid_regular(parts, sweeps, axis, swept_on_x, opts, points_read);
         }
     }
     let mut cleaned: Vec<Clean> = sweeps
@@ -622,24 +615,7 @@ pub fn grid_sweeps(
         .map_err(|e| bad_axis(&swept_name, e.to_string()))?;
     let stepped_axis = Axis::new(stepped_name.clone(), stepped_quantity, row_values)
         .map_err(|e| bad_axis(&stepped_name, e.to_string()))?;
-    let (x, y) = if swept_on_x {
-        (swept_axis, stepped_axis)
-    } else {
-        (stepped_axis, swept_axis)
-    };
-    let mut map = Map::new(x, y);
-    for ((name, kind, unit), arr) in channels.into_iter().zip(data) {
-        let arr = if swept_on_x {
-            arr
-        } else {
-            arr.t().as_standard_layout().into_owned()
-        };
-        let mut c = Channel::new(name, kind, arr);
-        if kind == ChannelKind::Other {
-            c.unit = unit;
-        }
-        map.add_channel(c)?;
-    }
+    let mut map = assemble_map(swept_axis, stepped_axis, channels, data, swept_on_x)?;
     let report = GridReport {
         sweeps: sweeps.len(),
         rows: nrow,
@@ -749,7 +725,7 @@ fn grid_regular(
     swept_on_x: bool,
     opts: &GridOptions,
     points_read: usize,
-) -> Map {
+) -> Result<Map> {
     let nch = parts.channels.len();
     let ncol = axis.len();
     let nrow = sweeps.len();
@@ -813,7 +789,7 @@ fn finish_regular(
     rows: RegularRows,
     swept_on_x: bool,
     opts: &GridOptions,
-) -> Map {
+) -> Result<Map> {
     let RegularRows {
         axis,
         mut values,
@@ -857,29 +833,9 @@ fn finish_regular(
     let hysteresis = data
         .first()
         .and_then(|d| hysteresis_of_rows(d, &row_dirs, &row_values, step));
-    let swept_axis = Axis::new(parts.swept_name, parts.swept_quantity, axis)
-        .expect("regular_axis checked that the axis strictly increases");
-    let stepped_axis = Axis::new(parts.stepped_name, parts.stepped_quantity, row_values)
-        .expect("regular_axis checked that stepped values are distinct and finite");
-    let (x, y) = if swept_on_x {
-        (swept_axis, stepped_axis)
-    } else {
-        (stepped_axis, swept_axis)
-    };
-    let mut map = Map::new(x, y);
-    for ((name, kind, unit), arr) in parts.channels.into_iter().zip(data) {
-        let arr = if swept_on_x {
-            arr
-        } else {
-            arr.t().as_standard_layout().into_owned()
-        };
-        let mut ch = Channel::new(name, kind, arr);
-        if kind == ChannelKind::Other {
-            ch.unit = unit;
-        }
-        // Names are unique and shapes match by construction.
-        let _ = map.add_channel(ch);
-    }
+    let swept_axis = Axis::new(parts.swept_name, parts.swept_quantity, axis)?;
+    let stepped_axis = Axis::new(parts.stepped_name, parts.stepped_quantity, row_values)?;
+    let mut map = assemble_map(swept_axis, stepped_axis, parts.channels, data, swept_on_x)?;
     let median_span = median(&mut spans.iter().map(|&n| n as f64).collect::<Vec<_>>());
     let report = GridReport {
         sweeps: nrow,
@@ -908,7 +864,7 @@ fn finish_regular(
     }
     map.raw = RawPoints::GridIsExact;
     map.meta.gridding = Some(report);
-    map
+    Ok(map)
 }
 
 #[cfg(test)]
@@ -1244,9 +1200,39 @@ pub fn grid_flat(
                 axis,
                 values,
             };
-            return Ok(finish_regular(parts, rows, swept_on_x, opts));
+            return finish_regular(parts, rows, swept_on_x, opts);
         }
     }
     let sweeps = flat.into_sweeps();
     grid_sweeps(SweepSet { sweeps, ..set }, swept_on_x, opts, duplicates)
+}
+
+/// A map from the two axes and the channels' arrays (rows along the stepped coordinate),
+/// transposed when the swept coordinate belongs on y.
+fn assemble_map(
+    swept_axis: Axis,
+    stepped_axis: Axis,
+    channels: Vec<(String, ChannelKind, String)>,
+    data: Vec<Array2<f64>>,
+    swept_on_x: bool,
+) -> Result<Map> {
+    let (x, y) = if swept_on_x {
+        (swept_axis, stepped_axis)
+    } else {
+        (stepped_axis, swept_axis)
+    };
+    let mut map = Map::new(x, y);
+    for ((name, kind, unit), arr) in channels.into_iter().zip(data) {
+        let arr = if swept_on_x {
+            arr
+        } else {
+            arr.t().as_standard_layout().into_owned()
+        };
+        let mut c = Channel::new(name, kind, arr);
+        if kind == ChannelKind::Other {
+            c.unit = unit;
+        }
+        map.add_channel(c)?;
+    }
+    Ok(map)
 }
