@@ -185,53 +185,57 @@ pub fn find_glitches(y: &[f64]) -> Vec<usize> {
     if n < 7 {
         return Vec::new();
     }
+    // |residual| of each point against the cubic through its neighbours (NaN at the ends).
     let r: Vec<f64> = (0..n)
         .map(|i| {
             if i < 2 || i + 2 >= n {
                 return f64::NAN;
             }
-            y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0
+            (y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0).abs()
         })
         .collect();
     // Noise is judged locally (±20 points): measured noise often scales with the signal, so
     // one figure for a whole sweep would call every point of a large peak a glitch.
     const HALF: usize = 20;
-    let mut window: Vec<f64> = Vec::with_capacity(2 * HALF + 1);
     (2..n - 2)
         .filter(|&i| {
-            let ri = r[i].abs();
+            let ri = r[i];
             if !ri.is_finite() {
                 return false;
             }
-            let is_peak =
-                (i.saturating_sub(2)..=(i + 2).min(n - 1)).all(|j| j == i || !(r[j].abs() > ri));
+            let is_peak = (i - 2..=i + 2).all(|j| j == i || !(r[j] > ri));
             if !is_peak {
                 return false;
             }
-            window.clear();
-            let (lo, hi) = (i.saturating_sub(HALF), (i + HALF).min(n - 1));
-            window.extend(
-                (lo..=hi)
-                    .filter(|&j| j.abs_diff(i) > 2)
-                    .map(|j| r[j].abs())
-                    .filter(|v| v.is_finite()),
-            );
-            if window.len() < 8 {
-                return false;
-            }
-            let sigma = 1.4826 * median(&mut window);
             // It must also stand clear of both neighbours by more than twice their own
             // difference: a narrow real peak rises through its neighbours, a spike jumps past.
+            // (Checked before the local noise: it is cheap and rejects almost every point.)
             let (a, b) = (y[i - 1], y[i + 1]);
-            let excess = if r[i] > 0.0 {
+            let signed = y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0;
+            let excess = if signed > 0.0 {
                 y[i] - a.max(b)
             } else {
                 a.min(b) - y[i]
             };
-            sigma > 0.0
-                && ri > 25.0 * sigma
-                && excess > 2.0 * (b - a).abs()
-                && excess > 25.0 * sigma
+            if !(excess > 2.0 * (b - a).abs() && excess > 0.0) {
+                return false;
+            }
+            // The robust noise σ = 1.4826 · median |residual| of the neighbourhood (its own
+            // ±2 points excluded). The spike must exceed 25 σ in residual and in excess, and σ
+            // must be positive. Since σ(v) grows with v, "median satisfies it" is "more than
+            // half of the values satisfy it": counted, not sorted.
+            let (lo, hi) = (i.saturating_sub(HALF), (i + HALF).min(n - 1));
+            let (mut finite, mut below, mut zero) = (0usize, 0usize, 0usize);
+            for &v in r[lo..i - 2].iter().chain(&r[i + 3..=hi]) {
+                if v.is_finite() {
+                    finite += 1;
+                    let sigma = 1.4826 * v;
+                    below += usize::from(ri > 25.0 * sigma && excess > 25.0 * sigma);
+                    zero += usize::from(!(sigma > 0.0));
+                }
+            }
+            let mid = finite / 2;
+            finite >= 8 && below > mid && zero <= mid
         })
         .collect()
 }
@@ -312,19 +316,26 @@ fn hysteresis_of_rows(
 ) -> Option<Hysteresis> {
     use SweepDirection::{Down, Up};
     const K: isize = 12;
+    // Rows swept down between two swept up (or the reverse) carry the estimate.
+    let triples: Vec<(usize, f64)> = (1..dirs.len().saturating_sub(1))
+        .filter_map(|k| match (dirs[k - 1], dirs[k], dirs[k + 1]) {
+            (Down, Up, Down) => Some((k, 1.0)),
+            (Up, Down, Up) => Some((k, -1.0)),
+            _ => None,
+        })
+        .collect();
+    if triples.is_empty() {
+        return None;
+    }
     // Compare rows in log scale so every feature counts, not only the largest peak (a channel
     // with signed values, such as R_xy, is compared as it is).
     let positive = data.iter().all(|v| !(*v <= 0.0));
-    let logged: Vec<Vec<f64>> = data
-        .rows()
-        .into_iter()
-        .map(|r| {
-            r.iter()
-                .map(|&v| if positive { v.ln() } else { v })
-                .collect()
-        })
-        .collect();
-    let rows: Vec<Option<&[f64]>> = logged.iter().map(|r| Some(r.as_slice())).collect();
+    let row = |k: usize| -> Vec<f64> {
+        data.row(k)
+            .iter()
+            .map(|&v| if positive { v.ln() } else { v })
+            .collect()
+    };
     // Offset s (SI) such that `other(x) ≈ base(x − s)`.
     let shift_of = |base: &[f64], other: &[f64]| -> Option<f64> {
         let n = base.len() as isize;
@@ -357,25 +368,19 @@ fn hysteresis_of_rows(
         };
         Some(((bi as isize - K) as f64 + frac) * step)
     };
-    let mut est = Vec::new();
-    for k in 1..dirs.len().saturating_sub(1) {
-        let sign = match (dirs[k - 1], dirs[k], dirs[k + 1]) {
-            (Down, Up, Down) => 1.0,
-            (Up, Down, Up) => -1.0,
-            _ => continue,
-        };
-        let (Some(base), Some(a), Some(b)) = (rows[k], rows[k - 1], rows[k + 1]) else {
-            continue;
-        };
-        let (Some(sa), Some(sb)) = (shift_of(base, a), shift_of(base, b)) else {
-            continue;
-        };
-        let (d1, d2) = (fields[k] - fields[k - 1], fields[k + 1] - fields[k]);
-        if !(d1 > 0.0 && d2 > 0.0) {
-            continue;
-        }
-        est.push(sign * (sa * d2 + sb * d1) / (d1 + d2));
-    }
+    let est: Vec<f64> = triples
+        .par_iter()
+        .filter_map(|&(k, sign)| {
+            let (d1, d2) = (fields[k] - fields[k - 1], fields[k + 1] - fields[k]);
+            if !(d1 > 0.0 && d2 > 0.0) {
+                return None;
+            }
+            let base = row(k);
+            let sa = shift_of(&base, &row(k - 1))?;
+            let sb = shift_of(&base, &row(k + 1))?;
+            Some(sign * (sa * d2 + sb * d1) / (d1 + d2))
+        })
+        .collect();
     if est.is_empty() {
         return None;
     }

@@ -5,6 +5,10 @@
 //! are accepted. Empty cells are missing values (NaN). The file is read in blocks; each block is
 //! split in two at a line boundary and parsed on two threads, then cut into sweeps in file order
 //! and handed to [`crate::grid`]. Progress is reported in bytes.
+//!
+//! A line of plain numbers is read in one pass without splitting it into cells
+//! ([`super::decimal`], correctly rounded); any other line (comments, blanks, quotes, empty
+//! cells, errors) goes through the general cell-by-cell rules, so both give the same values.
 
 use super::columns::{recognise, Recognised, Role};
 use super::LoadOptions;
@@ -188,24 +192,43 @@ fn layout(path: &Path, header: &str, opts: &LoadOptions) -> Result<Layout> {
     })
 }
 
-/// Points parsed from one piece of a block, in file order.
+/// Points parsed from one piece of a block, in file order. The buffers are reused from block
+/// to block, so a file's worth of points costs one allocation per column.
 #[derive(Default)]
 struct Piece {
-    a: Vec<f64>,
-    b: Vec<f64>,
-    values: Vec<Vec<f64>>,
-    temperature: Vec<f64>,
-    lines: Vec<usize>,
+    /// Per slot: 0 = a, 1 = b, 2.. = channels, then temperature if the file has one.
+    cols: Vec<Vec<f64>>,
+    /// (point index, line number) at the first point and after every skipped line; the line of
+    /// any other point follows by counting.
+    marks: Vec<(usize, usize)>,
     /// Number of line ends in the piece.
     line_ends: usize,
 }
 
+impl Piece {
+    fn len(&self) -> usize {
+        self.cols.first().map_or(0, Vec::len)
+    }
+
+    /// The 1-based file line of point `i`.
+    fn line_of(&self, i: usize) -> usize {
+        let k = self.marks.partition_point(|&(p, _)| p <= i);
+        let (p, line) = self.marks[k.saturating_sub(1)];
+        line + (i - p)
+    }
+}
+
+/// A column's destination in a parsed row.
+const SKIP: usize = usize::MAX;
+
 struct ParseCtx<'a> {
     path: &'a Path,
     layout: &'a Layout,
-    /// For each header column: None (skip), or Some(slot): 0 = a, 1 = b, 2.. = channel, usize::MAX = temperature.
-    slots: Vec<Option<usize>>,
+    /// For each header column: its slot in [`Piece::cols`], or [`SKIP`].
+    slots: Vec<usize>,
     scales: Vec<f64>,
+    /// Number of slots (coordinates, channels and temperature).
+    nslots: usize,
 }
 
 #[inline]
@@ -224,84 +247,135 @@ fn parse_number(field: &[u8]) -> Option<f64> {
 }
 
 impl ParseCtx<'_> {
-    fn parse_piece(&self, bytes: &[u8], first_line: usize) -> Result<Piece> {
-        let nch = self.layout.channels.len();
-        let mut p = Piece {
-            values: vec![Vec::new(); nch],
-            ..Piece::default()
+    /// Parse `bytes` (whole lines; `first_line` lines precede them in the file) into `p`.
+    fn parse_piece(&self, bytes: &[u8], first_line: usize, p: &mut Piece) -> Result<()> {
+        if p.cols.len() != self.nslots {
+            p.cols = vec![Vec::new(); self.nslots];
+        }
+        if p.cols[0].capacity() == 0 {
+            let est = bytes.len() / 40 + 1;
+            for c in &mut p.cols {
+                c.reserve(est);
+            }
+        }
+        for c in &mut p.cols {
+            c.clear();
+        }
+        p.marks.clear();
+        let mut row = vec![f64::NAN; self.nslots];
+        let mut line_no = first_line;
+        let mut mark = true;
+        let mut pos = 0;
+        let n = bytes.len();
+        while pos < n {
+            line_no += 1;
+            let next = match self.fast_row(bytes, pos, &mut row) {
+                Some(next) => next,
+                None => {
+                    let end = memchr::memchr(b'\n', &bytes[pos..]).map_or(n, |i| pos + i);
+                    let next = (end + 1).min(n);
+                    if !self.slow_row(&bytes[pos..end], line_no, &mut row)? {
+                        mark = true;
+                        pos = next;
+                        continue;
+                    }
+                    next
+                }
+            };
+            if mark {
+                p.marks.push((p.len(), line_no));
+                mark = false;
+            }
+            for (c, &v) in p.cols.iter_mut().zip(&row) {
+                c.push(v);
+            }
+            pos = next;
+        }
+        let lines = line_no - first_line;
+        p.line_ends = if n > 0 && bytes[n - 1] != b'\n' {
+            lines - 1
+        } else {
+            lines
         };
-        let est = bytes.len() / 40 + 1;
-        p.a.reserve(est);
-        p.b.reserve(est);
-        for v in &mut p.values {
-            v.reserve(est);
+        Ok(())
+    }
+
+    /// A line of plain numbers separated by the single-byte delimiter, read without splitting:
+    /// the row and the index after its line end, or None for anything else (comments, blanks,
+    /// quotes, empty cells, errors), which [`Self::slow_row`] then handles.
+    #[inline]
+    fn fast_row(&self, bytes: &[u8], start: usize, row: &mut [f64]) -> Option<usize> {
+        let Delimiter::Byte(d) = self.layout.delimiter else {
+            return None;
+        };
+        let last = self.slots.len() - 1;
+        let mut i = start;
+        for (idx, &slot) in self.slots.iter().enumerate() {
+            if slot == SKIP {
+                while i < bytes.len() && bytes[i] != d && bytes[i] != b'\n' {
+                    i += 1;
+                }
+            } else {
+                let (v, end) = super::decimal::read_number(bytes, i)?;
+                row[slot] = v * self.scales[idx];
+                i = end;
+            }
+            let here = bytes.get(i).copied();
+            if idx < last {
+                if here != Some(d) {
+                    return None;
+                }
+                i += 1;
+            } else {
+                return match here {
+                    None => Some(i),
+                    Some(b'\n') => Some(i + 1),
+                    Some(b'\r') if bytes.get(i + 1) == Some(&b'\n') => Some(i + 2),
+                    _ => None,
+                };
+            }
+        }
+        None
+    }
+
+    /// One line by the general rules. Ok(false) for a blank or comment line.
+    fn slow_row(&self, line: &[u8], line_no: usize, row: &mut [f64]) -> Result<bool> {
+        let line = line.strip_suffix(b"\r").unwrap_or(line);
+        let trimmed = line.trim_ascii_start();
+        if trimmed.is_empty() || trimmed[0] == b'#' {
+            return Ok(false);
         }
         let nfields = self.layout.headers.len();
-        let mut line_no = first_line;
-        let mut row = vec![f64::NAN; nch + 3];
-        for line in bytes.split(|&c| c == b'\n') {
-            line_no += 1;
-            let line = line.strip_suffix(b"\r").unwrap_or(line);
-            let trimmed = line.trim_ascii_start();
-            if trimmed.is_empty() || trimmed[0] == b'#' {
-                continue;
+        let mut count = 0usize;
+        let mut handle = |idx: usize, field: &[u8]| -> Result<()> {
+            if idx < nfields && self.slots[idx] != SKIP {
+                let v =
+                    parse_number(field).ok_or_else(|| self.bad_cell(line, line_no, idx, field))?;
+                row[self.slots[idx]] = v * self.scales[idx];
             }
-            let mut count = 0usize;
-            let mut handle = |idx: usize, field: &[u8]| -> Result<()> {
-                if idx < nfields {
-                    if let Some(slot) = self.slots[idx] {
-                        let v = parse_number(field)
-                            .ok_or_else(|| self.bad_cell(line, line_no, idx, field))?;
-                        let k = if slot == usize::MAX { nch + 2 } else { slot };
-                        row[k] = v * self.scales[idx];
-                    }
-                }
-                Ok(())
-            };
-            match self.layout.delimiter {
-                Delimiter::Byte(d) => {
-                    let mut rest = line;
-                    loop {
-                        match memchr::memchr(d, rest) {
-                            Some(i) => {
-                                handle(count, &rest[..i])?;
-                                count += 1;
-                                rest = &rest[i + 1..];
-                            }
-                            None => {
-                                handle(count, rest)?;
-                                count += 1;
-                                break;
-                            }
-                        }
-                    }
-                }
-                Delimiter::Blanks => {
-                    for f in line
-                        .split(|&c| c == b' ' || c == b'\t')
-                        .filter(|f| !f.is_empty())
-                    {
-                        handle(count, f)?;
-                        count += 1;
-                    }
+            Ok(())
+        };
+        match self.layout.delimiter {
+            Delimiter::Byte(d) => {
+                for field in line.split(|&c| c == d) {
+                    handle(count, field)?;
+                    count += 1;
                 }
             }
-            if count != nfields {
-                return Err(self.bad_count(line, line_no, count));
+            Delimiter::Blanks => {
+                for f in line
+                    .split(|&c| c == b' ' || c == b'\t')
+                    .filter(|f| !f.is_empty())
+                {
+                    handle(count, f)?;
+                    count += 1;
+                }
             }
-            p.a.push(row[0]);
-            p.b.push(row[1]);
-            for (c, v) in p.values.iter_mut().enumerate() {
-                v.push(row[2 + c]);
-            }
-            if self.layout.temperature.is_some() {
-                p.temperature.push(row[nch + 2]);
-            }
-            p.lines.push(line_no);
         }
-        // `split` yields one more item than there are line ends.
-        p.line_ends = line_no - first_line - 1;
-        Ok(p)
+        if count != nfields {
+            return Err(self.bad_count(line, line_no, count));
+        }
+        Ok(true)
     }
 
     fn other_delimiter(&self, line: &[u8]) -> Option<u8> {
@@ -362,52 +436,70 @@ struct SweepCutter {
 
 impl SweepCutter {
     fn push_piece(&mut self, p: &Piece) {
+        let (a, b) = (&p.cols[0], &p.cols[1]);
         let swept_is_a = *self.swept_is_a.get_or_insert_with(|| {
             let changes = |v: &[f64]| v.windows(2).filter(|w| w[0] != w[1]).count();
-            changes(&p.a) >= changes(&p.b)
+            changes(a) >= changes(b)
         });
-        let (sw, st) = if swept_is_a {
-            (&p.a, &p.b)
-        } else {
-            (&p.b, &p.a)
-        };
+        let (sw, st) = if swept_is_a { (a, b) } else { (b, a) };
+        let nch = self.flat.values.len();
         self.points += sw.len();
+        // Points of the piece not yet copied into the store start at `from`.
+        let mut from = 0;
         for i in 0..sw.len() {
             let (x, y) = (sw[i], st[i]);
-            let new = match &self.current {
-                None => true,
-                Some(cur) => {
-                    let last = self.flat.swept[cur.start + cur.len - 1];
+            let last = match &self.current {
+                None => None,
+                Some(cur) => Some(if i > from {
+                    sw[i - 1]
+                } else {
+                    self.flat.swept[cur.start + cur.len - 1]
+                }),
+            };
+            let new = match (&self.current, last) {
+                (Some(cur), Some(last)) => {
                     let same_step = (y - cur.step_value).abs() <= self.tol
                         || (y.is_nan() && cur.step_value.is_nan());
                     let d = (x - last).signum() as i8;
                     let reversed = x != last && self.dir != 0 && d != self.dir;
                     !same_step || reversed
                 }
+                _ => true,
             };
             if new {
+                self.copy(p, sw, from, i, nch);
+                from = i;
                 self.close();
                 self.current = Some(SweepSpan {
                     start: self.flat.swept.len(),
                     len: 0,
                     step_value: y,
                     direction: SweepDirection::Unknown,
-                    first_line: p.lines[i],
+                    first_line: p.line_of(i),
                 });
                 self.dir = 0;
-            }
-            let cur = self.current.as_mut().expect("sweep open");
-            if cur.len > 0 && self.dir == 0 {
-                let last = self.flat.swept[cur.start + cur.len - 1];
-                if x != last && x.is_finite() && last.is_finite() {
-                    self.dir = if x > last { 1 } else { -1 };
+            } else if self.dir == 0 {
+                if let Some(last) = last {
+                    if x != last && x.is_finite() && last.is_finite() {
+                        self.dir = if x > last { 1 } else { -1 };
+                    }
                 }
             }
-            cur.len += 1;
-            self.flat.swept.push(x);
-            for (c, v) in self.flat.values.iter_mut().enumerate() {
-                v.push(p.values[c][i]);
-            }
+        }
+        self.copy(p, sw, from, sw.len(), nch);
+    }
+
+    /// Append points `from..to` of the piece to the open sweep.
+    fn copy(&mut self, p: &Piece, sw: &[f64], from: usize, to: usize, nch: usize) {
+        if to <= from {
+            return;
+        }
+        if let Some(cur) = self.current.as_mut() {
+            cur.len += to - from;
+        }
+        self.flat.swept.extend_from_slice(&sw[from..to]);
+        for (c, v) in self.flat.values.iter_mut().enumerate().take(nch) {
+            v.extend_from_slice(&p.cols[2 + c][from..to]);
         }
     }
 
@@ -486,18 +578,19 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
     fill(&mut file, &mut buf, BLOCK).map_err(io)?;
     let (header, consumed, header_line) = read_header(path, &buf)?;
     let lay = layout(path, &header, opts)?;
-    let mut slots = vec![None; lay.headers.len()];
+    let nch = lay.channels.len();
+    let mut slots = vec![SKIP; lay.headers.len()];
     let mut scales = vec![1.0; lay.headers.len()];
-    slots[lay.coords[0]] = Some(0);
-    slots[lay.coords[1]] = Some(1);
+    slots[lay.coords[0]] = 0;
+    slots[lay.coords[1]] = 1;
     scales[lay.coords[0]] = lay.coord_info[0].unit.to_si;
     scales[lay.coords[1]] = lay.coord_info[1].unit.to_si;
     for (k, (i, _, r)) in lay.channels.iter().enumerate() {
-        slots[*i] = Some(2 + k);
+        slots[*i] = 2 + k;
         scales[*i] = r.unit.to_si;
     }
     if let Some((i, s)) = lay.temperature {
-        slots[i] = Some(usize::MAX);
+        slots[i] = 2 + nch;
         scales[i] = s;
     }
     let ctx = ParseCtx {
@@ -505,6 +598,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
         layout: &lay,
         slots,
         scales,
+        nslots: 2 + nch + usize::from(lay.temperature.is_some()),
     };
     let mut cutter = SweepCutter {
         swept_is_a: None,
@@ -522,6 +616,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
     let mut done_bytes = consumed as u64;
     buf.drain(..consumed);
     let mut eof = false;
+    let (mut p1, mut p2) = (Piece::default(), Piece::default());
     loop {
         if !eof {
             eof = fill(&mut file, &mut buf, BLOCK).map_err(io)?;
@@ -553,15 +648,16 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
             };
             let (first, second) = block.split_at(mid);
             let first_ends = memchr::memchr_iter(b'\n', first).count();
-            let (p1, p2) = rayon::join(
-                || ctx.parse_piece(first, line_base),
-                || ctx.parse_piece(second, line_base + first_ends),
+            let (r1, r2) = rayon::join(
+                || ctx.parse_piece(first, line_base, &mut p1),
+                || ctx.parse_piece(second, line_base + first_ends, &mut p2),
             );
-            let (p1, p2) = (p1?, p2?);
+            r1?;
+            r2?;
             if cutter.points == 0 {
                 // Reserve the whole file's worth of points once (estimated from the first
                 // block): untouched capacity costs no memory, repeated doubling would.
-                let rows = (p1.a.len() + p2.a.len()).max(1);
+                let rows = (p1.len() + p2.len()).max(1);
                 let est = (total as f64 / cut.max(1) as f64 * rows as f64 * 1.02) as usize;
                 cutter.flat.swept.reserve(est);
                 for v in &mut cutter.flat.values {
@@ -570,9 +666,11 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
             }
             for p in [&p1, &p2] {
                 cutter.push_piece(p);
-                for &t in &p.temperature {
-                    if t.is_finite() {
-                        temps = (temps.0 + t, temps.1 + 1);
+                if lay.temperature.is_some() {
+                    for &t in &p.cols[2 + nch] {
+                        if t.is_finite() {
+                            temps = (temps.0 + t, temps.1 + 1);
+                        }
                     }
                 }
             }
@@ -834,6 +932,26 @@ mod tests {
         let t = REGULAR.replace("0,1.0,210,5", "0\t1.0\t210\t5");
         let e = err_text(&t);
         assert!(e.contains("mixed delimiters") && e.contains(":6:"), "{e}");
+    }
+
+    #[test]
+    fn line_numbers_count_comments_blanks_and_quoted_cells() {
+        // Lines 2–3 take the general path (comment, blank), line 5 too (quoted cell); the
+        // duplicate on line 7 must still be reported on line 7.
+        let t = "vg_V,b_T,rxx_ohm\n# cooled down\n\n0,1,10\n\"1\",1,20\n2,1,30\n2,1,31\n";
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "l.csv", t);
+        let opts = LoadOptions {
+            duplicates: DuplicatePolicy::Error,
+            ..LoadOptions::default()
+        };
+        let e = load_map(&p, &opts, &NoProgress).unwrap_err().to_string();
+        assert!(e.contains("line 7"), "{e}");
+        let m = load_text(t).unwrap();
+        let rxx = &m.channel("rxx").unwrap().data;
+        assert_eq!((rxx[[0, 0]], rxx[[0, 1]], rxx[[0, 2]]), (10.0, 20.0, 30.5));
+        let e = err_text("vg_V,b_T,rxx_ohm\n#\n0,1,10\n\n1,1,x\n");
+        assert!(e.contains("m.csv:5:"), "{e}");
     }
 
     #[test]

@@ -7,6 +7,7 @@
 
 pub mod columns;
 pub mod csv_long;
+pub mod decimal;
 #[cfg(feature = "hdf5")]
 pub mod hdf5;
 pub mod matrix;
