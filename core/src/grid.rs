@@ -1040,6 +1040,86 @@ mod tests {
         assert_eq!(find_glitches(&z), vec![200]);
     }
 
+    /// The glitch rule written out directly: sort the neighbourhood, take its median.
+    fn glitches_by_sorting(y: &[f64]) -> Vec<usize> {
+        let n = y.len();
+        let res = |i: usize| y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0;
+        let r: Vec<f64> = (0..n)
+            .map(|i| {
+                if i < 2 || i + 2 >= n {
+                    f64::NAN
+                } else {
+                    res(i).abs()
+                }
+            })
+            .collect();
+        let mut out = Vec::new();
+        for i in 2..n.saturating_sub(2) {
+            let ri = r[i];
+            if !ri.is_finite() || (i - 2..=i + 2).any(|j| j != i && r[j] > ri) {
+                continue;
+            }
+            let (a, b) = (y[i - 1], y[i + 1]);
+            let excess = if res(i) > 0.0 {
+                y[i] - a.max(b)
+            } else {
+                a.min(b) - y[i]
+            };
+            let mut w: Vec<f64> = (i.saturating_sub(20)..=(i + 20).min(n - 1))
+                .filter(|&j| j.abs_diff(i) > 2 && r[j].is_finite())
+                .map(|j| r[j])
+                .collect();
+            if w.len() < 8 {
+                continue;
+            }
+            w.sort_by(f64::total_cmp);
+            let sigma = 1.4826 * w[w.len() / 2];
+            if sigma > 0.0
+                && ri > 25.0 * sigma
+                && excess > 2.0 * (b - a).abs()
+                && excess > 25.0 * sigma
+            {
+                out.push(i);
+            }
+        }
+        out
+    }
+
+    #[test]
+    fn counted_median_rule_matches_the_sorted_median() {
+        let mut seed = 11u64;
+        let mut rnd = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut found = 0;
+        for trial in 0..300 {
+            let n = 7 + (rnd() * 200.0) as usize;
+            let mut y: Vec<f64> = (0..n)
+                .map(|i| f(i as f64 * 0.02, 1.0) + 0.01 * (rnd() - 0.5))
+                .collect();
+            for _ in 0..(trial % 5) {
+                let k = (rnd() * n as f64) as usize % n;
+                y[k] += (rnd() - 0.5) * 40.0;
+            }
+            if trial % 7 == 0 {
+                y[n / 2] = f64::NAN;
+            }
+            if trial % 11 == 0 {
+                // Flat stretches: zero residuals, σ = 0 must never flag.
+                for v in y.iter_mut().take(n / 2) {
+                    *v = 1.0;
+                }
+            }
+            let want = glitches_by_sorting(&y);
+            found += want.len();
+            assert_eq!(find_glitches(&y), want, "trial {trial}");
+        }
+        assert!(found > 50, "the trials must contain glitches ({found})");
+    }
+
     #[test]
     fn regular_sweeps_take_the_exact_path() {
         let xs: Vec<f64> = (0..50).map(|k| k as f64 * 0.1).collect();
