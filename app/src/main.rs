@@ -7,6 +7,7 @@
 mod cmd;
 mod figure;
 mod progress;
+mod timing;
 mod viewer;
 
 use clap::{Parser, Subcommand};

@@ -322,7 +322,9 @@ pub fn run(a: Args) -> Result<()> {
     };
     let format = format_of(out)?;
     let stack: Stack = a.stack.parse()?;
+    let mut clock = crate::timing::Stages::start();
     let map = load_map(file, &a.load.options()?, &NoProgress)?;
+    clock.lap("load");
 
     // Calibration: explicit values first, then a calibration file, then an index report.
     let report: Option<IndexReport> = match &a.states {
@@ -432,8 +434,11 @@ pub fn run(a: Args) -> Result<()> {
         title: a.title.clone(),
         ..FigureChoices::default()
     };
+    clock.lap("prepare");
     let (fig, rep) = build_figure(&map, &choices)?;
+    clock.lap("build");
     write(&fig, format, out).with_context(|| format!("writing {}", out.display()))?;
+    clock.lap("write");
     let (w, h) = fig.pixel_size();
     println!(
         "wrote {} ({:.0} × {:.0} mm{}): {} predicted lines, {} found states{}",

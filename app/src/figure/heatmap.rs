@@ -6,6 +6,7 @@
 
 use super::scene::{ColorScale, HeatMap, Resample, ValueRange};
 use fanmark_core::{Error, Result};
+use rayon::prelude::*;
 
 /// A resolved value → colour mapping.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -237,41 +238,43 @@ pub fn render_rgba(
     let ys = axis_samples(&h.y, (0..ht).map(|i| at(y_edges, ht, i)), h.resample);
     let missing = h.missing.map(|c| [c[0], c[1], c[2], 255]).unwrap_or([0; 4]);
     let v = &h.values;
-    for (r, ysample) in ys.iter().enumerate() {
-        let row = &mut out[r * w * 4..(r + 1) * w * 4];
-        let Some((ya, yb, wy)) = *ysample else {
-            continue;
-        };
-        for (c, xsample) in xs.iter().enumerate() {
-            let Some((xa, xb, wx)) = *xsample else {
-                continue;
+    // Rows are independent: drawn in parallel.
+    out.par_chunks_mut(w * 4)
+        .zip(ys.par_iter())
+        .for_each(|(row, ysample)| {
+            let Some((ya, yb, wy)) = *ysample else {
+                return;
             };
-            let q = [
-                (v[[ya, xa]], (1.0 - wy) * (1.0 - wx)),
-                (v[[ya, xb]], (1.0 - wy) * wx),
-                (v[[yb, xa]], wy * (1.0 - wx)),
-                (v[[yb, xb]], wy * wx),
-            ];
-            let value = if q.iter().all(|(val, _)| val.is_finite()) {
-                q.iter().map(|(val, wt)| val * wt).sum()
-            } else {
-                // Near missing data: the heaviest finite neighbour.
-                q.iter()
-                    .filter(|(val, _)| val.is_finite())
-                    .max_by(|a, b| a.1.total_cmp(&b.1))
-                    .map(|(val, _)| *val)
-                    .unwrap_or(f64::NAN)
-            };
-            let px = match map.index(value) {
-                Some(i) => {
-                    let col = h.colors[i as usize];
-                    [col[0], col[1], col[2], 255]
-                }
-                None => missing,
-            };
-            row[c * 4..c * 4 + 4].copy_from_slice(&px);
-        }
-    }
+            for (c, xsample) in xs.iter().enumerate() {
+                let Some((xa, xb, wx)) = *xsample else {
+                    continue;
+                };
+                let q = [
+                    (v[[ya, xa]], (1.0 - wy) * (1.0 - wx)),
+                    (v[[ya, xb]], (1.0 - wy) * wx),
+                    (v[[yb, xa]], wy * (1.0 - wx)),
+                    (v[[yb, xb]], wy * wx),
+                ];
+                let value = if q.iter().all(|(val, _)| val.is_finite()) {
+                    q.iter().map(|(val, wt)| val * wt).sum()
+                } else {
+                    // Near missing data: the heaviest finite neighbour.
+                    q.iter()
+                        .filter(|(val, _)| val.is_finite())
+                        .max_by(|a, b| a.1.total_cmp(&b.1))
+                        .map(|(val, _)| *val)
+                        .unwrap_or(f64::NAN)
+                };
+                let px = match map.index(value) {
+                    Some(i) => {
+                        let col = h.colors[i as usize];
+                        [col[0], col[1], col[2], 255]
+                    }
+                    None => missing,
+                };
+                row[c * 4..c * 4 + 4].copy_from_slice(&px);
+            }
+        });
     out
 }
 
