@@ -565,13 +565,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
         path: path.to_path_buf(),
         source,
     };
-    let mut file = std::fs::File::open(path).map_err(io)?;
-    let total = file.metadata().map_err(io)?.len();
-    if total == 0 {
-        return Err(Error::EmptyFile {
-            path: path.to_path_buf(),
-        });
-    }
+    let (mut file, total) = super::open_nonempty(path)?;
     progress.start("reading", total);
     let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + (64 << 10));
     // Read until the first block holds the header line.

@@ -13,23 +13,29 @@ const POW10: [f64; 23] = [
     1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
 ];
 
+/// Skip an optional `+` or `-` at `s[*i]`; true for `-`.
+#[inline(always)]
+fn read_sign(s: &[u8], i: &mut usize) -> bool {
+    match s.get(*i) {
+        Some(b'-') => {
+            *i += 1;
+            true
+        }
+        Some(b'+') => {
+            *i += 1;
+            false
+        }
+        _ => false,
+    }
+}
+
 /// Read a number starting at `s[i]`. Returns the correctly rounded value and the index of the
 /// first byte after it, or `None` when the text is not in the fast shape (the caller then uses
 /// the general parser on the whole cell).
 #[inline(always)]
 pub fn read_number(s: &[u8], mut i: usize) -> Option<(f64, usize)> {
     let n = s.len();
-    let neg = match s.get(i) {
-        Some(b'-') => {
-            i += 1;
-            true
-        }
-        Some(b'+') => {
-            i += 1;
-            false
-        }
-        _ => false,
-    };
+    let neg = read_sign(s, &mut i);
     let mut mantissa: u64 = 0;
     let mut digits = 0usize;
     while i < n && s[i].is_ascii_digit() {
@@ -53,17 +59,7 @@ pub fn read_number(s: &[u8], mut i: usize) -> Option<(f64, usize)> {
     }
     if i < n && (s[i] | 0x20) == b'e' {
         i += 1;
-        let eneg = match s.get(i) {
-            Some(b'-') => {
-                i += 1;
-                true
-            }
-            Some(b'+') => {
-                i += 1;
-                false
-            }
-            _ => false,
-        };
+        let eneg = read_sign(s, &mut i);
         let start = i;
         let mut e: i64 = 0;
         while i < n && s[i].is_ascii_digit() {

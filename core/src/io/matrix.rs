@@ -43,15 +43,8 @@ const PROGRESS_STEP: usize = 1 << 20;
 /// `y_header` and `channel_header` (defaults `vg_V`, `b_T`, `rxx_ohm`).
 pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<Map> {
     let m = &opts.matrix;
-    let x_header = m.x_header.as_deref().unwrap_or(DEFAULT_X_HEADER);
-    let y_header = m.y_header.as_deref().unwrap_or(DEFAULT_Y_HEADER);
-    let ch_header = m
-        .channel_header
-        .as_deref()
-        .unwrap_or(DEFAULT_CHANNEL_HEADER);
-    let x_rec = coordinate_header(x_header, "x")?;
-    let y_rec = coordinate_header(y_header, "y")?;
-    let ch_rec = channel_header(ch_header)?;
+    let h = MatrixHeaders::of(m)?;
+    let (x_header, y_header) = (h.x, h.y);
 
     let x_file = match &m.x_axis_file {
         Some(p) => Some((p.as_path(), read_axis_file(p)?)),
@@ -96,27 +89,82 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
     let y_context = y_file
         .as_ref()
         .map_or(context.clone(), |(p, _)| p.display().to_string());
-    let (x, rev_x) = build_axis(&x_context, x_header, &x_rec, &x_raw)?;
-    let (y, rev_y) = build_axis(&y_context, y_header, &y_rec, &y_raw)?;
-
-    let mut data = orient(parsed.data, rev_x, rev_y);
-    if ch_rec.unit.to_si != 1.0 {
-        data.mapv_inplace(|v| v * ch_rec.unit.to_si);
-    }
-    let mut map = Map::new(x, y);
-    map.add_channel(make_channel(&ch_rec.role.name(), &ch_rec, data))?;
-    map.meta.columns = vec![
-        (x_rec.role.name(), x_header.to_string()),
-        (y_rec.role.name(), y_header.to_string()),
-        (ch_rec.role.name(), ch_header.to_string()),
-    ];
-    map.meta.notes.push(format!(
+    let map = h.map(
+        (&x_context, &x_raw),
+        (&y_context, &y_raw),
+        parsed.data,
+        |map| {
+            map.meta.notes.push(format!(
         "matrix text: {nrows} rows along `{y_header}`, {ncols} columns along `{x_header}`, \
          delimiter {}",
-        parsed.delimiter.describe()
-    ));
-    push_reversal_notes(&mut map, x_header, rev_x, y_header, rev_y);
+                parsed.delimiter.describe()
+            ))
+        },
+    )?;
     Ok(map)
+}
+
+/// The header texts of a one-channel matrix (from the options or the defaults) and the roles
+/// and units they name.
+pub(crate) struct MatrixHeaders<'a> {
+    /// Header of the x axis (columns), e.g. `vg_V`.
+    pub x: &'a str,
+    /// Header of the y axis (rows), e.g. `b_T`.
+    pub y: &'a str,
+    /// Header of the channel, e.g. `rxx_ohm`.
+    pub channel: &'a str,
+    x_rec: Recognised,
+    y_rec: Recognised,
+    ch_rec: Recognised,
+}
+
+impl<'a> MatrixHeaders<'a> {
+    /// Recognise the headers given in `m`, or the defaults.
+    pub fn of(m: &'a super::MatrixOptions) -> Result<MatrixHeaders<'a>> {
+        let x = m.x_header.as_deref().unwrap_or(DEFAULT_X_HEADER);
+        let y = m.y_header.as_deref().unwrap_or(DEFAULT_Y_HEADER);
+        let channel = m
+            .channel_header
+            .as_deref()
+            .unwrap_or(DEFAULT_CHANNEL_HEADER);
+        Ok(MatrixHeaders {
+            x,
+            y,
+            channel,
+            x_rec: coordinate_header(x, "x")?,
+            y_rec: coordinate_header(y, "y")?,
+            ch_rec: channel_header(channel)?,
+        })
+    }
+
+    /// The one-channel map from raw axis values (each with the context its errors name) and
+    /// data of shape (y, x) in the header's units: axes made increasing (data flipped to
+    /// match), values converted to SI, columns recorded. `describe` adds the format's note
+    /// before the notes on reversed axes.
+    pub fn map(
+        &self,
+        (x_context, x_raw): (&str, &[f64]),
+        (y_context, y_raw): (&str, &[f64]),
+        data: Array2<f64>,
+        describe: impl FnOnce(&mut Map),
+    ) -> Result<Map> {
+        let (x, rev_x) = build_axis(x_context, self.x, &self.x_rec, x_raw)?;
+        let (y, rev_y) = build_axis(y_context, self.y, &self.y_rec, y_raw)?;
+        let mut data = orient(data, rev_x, rev_y);
+        if self.ch_rec.unit.to_si != 1.0 {
+            data.mapv_inplace(|v| v * self.ch_rec.unit.to_si);
+        }
+        let mut map = Map::new(x, y);
+        map.add_channel(make_channel(&self.ch_rec.role.name(), &self.ch_rec, data))?;
+        map.meta.columns = vec![
+            (self.x_rec.role.name(), self.x.to_string()),
+            (self.y_rec.role.name(), self.y.to_string()),
+            (self.ch_rec.role.name(), self.channel.to_string()),
+        ];
+        describe(&mut map);
+        push_reversal_notes(&mut map, self.x, rev_x, self.y, rev_y);
+        Ok(map)
+    }
 }
 
 /// The parser always yields an inline axis where no file gives one; this keeps that promise

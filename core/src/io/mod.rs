@@ -22,6 +22,22 @@ use columns::Role;
 use serde::{Deserialize, Serialize};
 use std::path::{Path, PathBuf};
 
+/// Open a data file that must not be empty: the file and its length in bytes.
+pub(crate) fn open_nonempty(path: &Path) -> Result<(std::fs::File, u64)> {
+    let io = |source| Error::Io {
+        path: path.to_path_buf(),
+        source,
+    };
+    let file = std::fs::File::open(path).map_err(io)?;
+    let len = file.metadata().map_err(io)?.len();
+    if len == 0 {
+        return Err(Error::EmptyFile {
+            path: path.to_path_buf(),
+        });
+    }
+    Ok((file, len))
+}
+
 /// The file formats fanmark reads.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]

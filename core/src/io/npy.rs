@@ -17,8 +17,8 @@
 
 use super::columns::{self, Recognised, Role};
 use super::matrix::{
-    build_axis, channel_header, coordinate_header, make_channel, orient, push_reversal_notes,
-    read_axis_file, DEFAULT_CHANNEL_HEADER, DEFAULT_X_HEADER, DEFAULT_Y_HEADER,
+    build_axis, coordinate_header, make_channel, orient, push_reversal_notes, read_axis_file,
+    MatrixHeaders, DEFAULT_X_HEADER, DEFAULT_Y_HEADER,
 };
 use super::LoadOptions;
 use crate::error::{Error, Result};
@@ -558,32 +558,10 @@ pub(crate) fn axis_from_npy_bytes(path: &Path, bytes: &[u8]) -> Result<Vec<f64>>
 /// from sibling files `<stem>.x.npy` / `<stem>.y.npy`; without them the file is refused.
 pub fn load_npy(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<Map> {
     let m = &opts.matrix;
-    let x_header = m.x_header.as_deref().unwrap_or(DEFAULT_X_HEADER);
-    let y_header = m.y_header.as_deref().unwrap_or(DEFAULT_Y_HEADER);
-    let ch_header = m
-        .channel_header
-        .as_deref()
-        .unwrap_or(DEFAULT_CHANNEL_HEADER);
-    let x_rec = coordinate_header(x_header, "x")?;
-    let y_rec = coordinate_header(y_header, "y")?;
-    let ch_rec = channel_header(ch_header)?;
+    let h = MatrixHeaders::of(m)?;
+    let (x_header, y_header) = (h.x, h.y);
 
-    let file = std::fs::File::open(path).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
-    let size = file
-        .metadata()
-        .map_err(|source| Error::Io {
-            path: path.to_path_buf(),
-            source,
-        })?
-        .len();
-    if size == 0 {
-        return Err(Error::EmptyFile {
-            path: path.to_path_buf(),
-        });
-    }
+    let (file, size) = super::open_nonempty(path)?;
     let mut r = std::io::BufReader::new(file);
     let header = read_header(path, "", &mut r, size)?;
     header.dtype_or_err(path, "")?;
@@ -654,36 +632,24 @@ pub fn load_npy(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Res
     } else {
         data
     };
-    let (x, rev_x) = build_axis(&x_path.display().to_string(), x_header, &x_rec, &x_raw)?;
-    let (y, rev_y) = build_axis(&y_path.display().to_string(), y_header, &y_rec, &y_raw)?;
-    let mut data = orient(data, rev_x, rev_y);
-    if ch_rec.unit.to_si != 1.0 {
-        data.mapv_inplace(|v| v * ch_rec.unit.to_si);
-    }
-    let mut map = Map::new(x, y);
-    map.add_channel(make_channel(&ch_rec.role.name(), &ch_rec, data))?;
-    map.meta.columns = vec![
-        (x_rec.role.name(), x_header.to_string()),
-        (y_rec.role.name(), y_header.to_string()),
-        (ch_rec.role.name(), ch_header.to_string()),
-    ];
-    map.meta.notes.push(format!(
-        ".npy array of shape {}; axes from {} and {}",
-        header.shape_text(),
-        x_path.display(),
-        y_path.display()
-    ));
-    if transposed {
-        map.meta
-            .notes
-            .push("array stored as (x, y); transposed to rows along y".into());
-    } else if nx == ny {
-        map.meta
-            .notes
-            .push("square array taken as rows along y (NumPy row-major convention)".into());
-    }
-    push_reversal_notes(&mut map, x_header, rev_x, y_header, rev_y);
-    Ok(map)
+    let (xc, yc) = (x_path.display().to_string(), y_path.display().to_string());
+    h.map((&xc, &x_raw), (&yc, &y_raw), data, |map| {
+        map.meta.notes.push(format!(
+            ".npy array of shape {}; axes from {} and {}",
+            header.shape_text(),
+            x_path.display(),
+            y_path.display()
+        ));
+        if transposed {
+            map.meta
+                .notes
+                .push("array stored as (x, y); transposed to rows along y".into());
+        } else if nx == ny {
+            map.meta
+                .notes
+                .push("square array taken as rows along y (NumPy row-major convention)".into());
+        }
+    })
 }
 
 /// `<stem>.x.npy` beside `path`.
@@ -1111,22 +1077,7 @@ fn zip_error(path: &Path, e: &zip::result::ZipError) -> Error {
 
 /// Load a `.npz` archive of named arrays (uncompressed, as `np.savez` writes) into a [`Map`].
 pub fn load_npz(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<Map> {
-    let file = std::fs::File::open(path).map_err(|source| Error::Io {
-        path: path.to_path_buf(),
-        source,
-    })?;
-    let file_len = file
-        .metadata()
-        .map_err(|source| Error::Io {
-            path: path.to_path_buf(),
-            source,
-        })?
-        .len();
-    if file_len == 0 {
-        return Err(Error::EmptyFile {
-            path: path.to_path_buf(),
-        });
-    }
+    let (file, file_len) = super::open_nonempty(path)?;
     let mut archive =
         zip::ZipArchive::new(std::io::BufReader::new(file)).map_err(|e| zip_error(path, &e))?;
     let mut entries = Vec::new();
