@@ -542,6 +542,36 @@ pub struct Rendered {
 }
 
 impl Renderer {
+    /// Render `s` into a `w`×`h` px window at `scale` physical px per logical px the way the
+    /// window settles on it: resize, draw, take the plot area the layout found, and draw again
+    /// until that area stops moving (at most four passes). Used off-screen and in benchmarks.
+    pub fn render_settled(
+        &mut self,
+        s: &mut ViewState,
+        w: u32,
+        h: u32,
+        scale: f64,
+    ) -> Result<Rendered> {
+        if (w, h) != s.window || scale != s.dpi_scale {
+            s.apply(super::state::Action::Resize {
+                width: w,
+                height: h,
+                scale,
+            });
+        }
+        let mut r = self.render(s, w, h)?;
+        for _ in 0..3 {
+            match r.plot {
+                Some(p) if p != s.plot => {
+                    s.apply(super::state::Action::PlotArea(p));
+                    r = self.render(s, w, h)?;
+                }
+                _ => break,
+            }
+        }
+        Ok(r)
+    }
+
     /// Render the state into a `w`×`h` px image: figure, status line, help overlay.
     pub fn render(&mut self, s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
         let status = (STATUS_PX * s.dpi_scale).round() as u32;
