@@ -581,3 +581,39 @@ fn project_load_names_the_file_and_what_is_wrong() {
     std::fs::write(&path, &good[..good.len() / 2]).unwrap();
     assert!(project::load(&path).is_err());
 }
+
+#[test]
+fn sampled_view_equals_interpolating_the_map_at_each_sample() {
+    // Zoomed in far enough that the finest level is used: every sample must be the bilinear
+    // value of the map at that sample's (gate, field), in each frame.
+    for k in [
+        FrameKind::GateField,
+        FrameKind::DensityField,
+        FrameKind::FillingField,
+    ] {
+        let mut s = state();
+        s.apply(Action::SetFrame(k));
+        s.apply(Action::ZoomAt(600.0, 400.0, 4.0));
+        let (vals, xs, ys) = super::draw::sample_view(&s, 60, 40);
+        let frame = s.core_frame();
+        let mut compared = 0;
+        for (r, &y) in ys.iter().enumerate() {
+            for (c, &x) in xs.iter().enumerate() {
+                let (n, b) = frame
+                    .from_frame(fanmark_core::line::FramePoint { x, y })
+                    .unwrap();
+                let want = s
+                    .data
+                    .value_at(ChannelChoice::Rxx, s.data.gate.gate_for_density(n), b);
+                match want {
+                    Some(w) => {
+                        assert!(close(vals[[r, c]], w, 1e-9), "{k:?} ({c}, {r})");
+                        compared += 1;
+                    }
+                    None => assert!(!vals[[r, c]].is_finite(), "{k:?} ({c}, {r}) outside"),
+                }
+            }
+        }
+        assert!(compared > 1000, "{k:?}: {compared}");
+    }
+}
