@@ -1,16 +1,7 @@
 //! fanmark: find, index and publish the gaps of Landau fans and Wannier diagrams.
 
-// `!(x > y)` is used on purpose: it is true for NaN, which is what a check rejecting bad values
-// needs.
-#![allow(clippy::neg_cmp_op_on_partial_ord)]
-
-mod cmd;
-mod figure;
-mod progress;
-mod timing;
-mod viewer;
-
 use clap::{Parser, Subcommand};
+use fanmark::cmd;
 use std::process::ExitCode;
 
 /// Quantum Hall and moiré transport maps: calibrate the gate, find and index every gap,

@@ -5,6 +5,7 @@ use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use std::sync::Mutex;
 
 /// A progress sink drawing one bar on stderr.
+#[derive(Default)]
 pub struct TermProgress {
     bar: Mutex<Option<ProgressBar>>,
 }
@@ -12,9 +13,7 @@ pub struct TermProgress {
 impl TermProgress {
     /// A new sink; draws nothing until work starts.
     pub fn new() -> TermProgress {
-        TermProgress {
-            bar: Mutex::new(None),
-        }
+        TermProgress::default()
     }
 }
 

@@ -88,6 +88,33 @@ pub fn sample_view(s: &ViewState, w: usize, h: usize) -> (Array2<f64>, Vec<f64>,
     };
     let cpp = cells_x.min(cells_y).max(1.0);
     let (xs2, ys2) = (&xs, &ys);
+    if matches!(
+        s.frame,
+        FrameKind::GateField | FrameKind::DensityField | FrameKind::Wannier
+    ) {
+        // In these frames x fixes the density and y the field: look each up once per column
+        // and once per row instead of once per sample.
+        let ym = 0.5 * (v.y0 + v.y1);
+        let xm = 0.5 * (v.x0 + v.x1);
+        let cols: Vec<Option<f64>> = xs
+            .iter()
+            .map(|&x| {
+                let (n, _) = frame.from_frame(FramePoint { x, y: ym }).ok()?;
+                gx.fractional_index(gate.gate_for_density(n))
+            })
+            .collect();
+        let rows: Vec<Option<f64>> = ys
+            .iter()
+            .map(|&y| {
+                let (_, b) = frame.from_frame(FramePoint { x: xm, y }).ok()?;
+                gy.fractional_index(b)
+            })
+            .collect();
+        let vals = ch
+            .pyramid
+            .sample(w, h, cpp, &|c, r| Some((cols[c]?, rows[r]?)));
+        return (vals, xs, ys);
+    }
     let vals = ch.pyramid.sample(w, h, cpp, &|c, r| {
         let (n, b) = frame
             .from_frame(FramePoint {
@@ -524,6 +551,25 @@ pub fn export_figure(s: &ViewState) -> Figure {
     fig
 }
 
+/// A 2 × 2 stand-in for `h` with its colours, scale, range and extent.
+fn light_heat(h: &HeatMap) -> HeatMap {
+    let ends = |v: &[f64]| vec![v[0], v[v.len() - 1]];
+    let fill = match h.range {
+        ValueRange::Fixed(lo, _) => lo,
+        _ => 1.0,
+    };
+    HeatMap {
+        values: Array2::from_elem((2, 2), fill),
+        x: ends(&h.x),
+        y: ends(&h.y),
+        colors: h.colors.clone(),
+        scale: h.scale,
+        range: h.range,
+        resample: h.resample,
+        missing: h.missing,
+    }
+}
+
 /// Renders states to pixels, keeping the last heat-map layer.
 #[derive(Default)]
 pub struct Renderer {
@@ -542,6 +588,36 @@ pub struct Rendered {
 }
 
 impl Renderer {
+    /// Render `s` into a `w`×`h` px window at `scale` physical px per logical px the way the
+    /// window settles on it: resize, draw, take the plot area the layout found, and draw again
+    /// until that area stops moving (at most four passes). Used off-screen and in benchmarks.
+    pub fn render_settled(
+        &mut self,
+        s: &mut ViewState,
+        w: u32,
+        h: u32,
+        scale: f64,
+    ) -> Result<Rendered> {
+        if (w, h) != s.window || scale != s.dpi_scale {
+            s.apply(super::state::Action::Resize {
+                width: w,
+                height: h,
+                scale,
+            });
+        }
+        let mut r = self.render(s, w, h)?;
+        for _ in 0..3 {
+            match r.plot {
+                Some(p) if p != s.plot => {
+                    s.apply(super::state::Action::PlotArea(p));
+                    r = self.render(s, w, h)?;
+                }
+                _ => break,
+            }
+        }
+        Ok(r)
+    }
+
     /// Render the state into a `w`×`h` px image: figure, status line, help overlay.
     pub fn render(&mut self, s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
         let status = (STATUS_PX * s.dpi_scale).round() as u32;
@@ -557,14 +633,16 @@ impl Renderer {
             view: s.view,
             size: (plot_w as u32, plot_h as u32),
         };
-        let heat = match &self.heat {
-            Some((k, h)) if *k == key => h.clone(),
-            _ => {
-                let h = heat_of(s, plot_w.min(4096), plot_h.min(4096));
-                self.heat = Some((key.clone(), h.clone()));
-                h
-            }
+        if !matches!(&self.heat, Some((k, _)) if *k == key) {
+            self.heat = Some((key.clone(), heat_of(s, plot_w.min(4096), plot_h.min(4096))));
+        }
+        let full_heat = match &self.heat {
+            Some((_, h)) => h,
+            None => unreachable!("the heat map was just stored"),
         };
+        // The figure carries a stand-in with the same colours, range and extent (all the layout
+        // needs); the layer itself is drawn from the full samples, so no frame copies them.
+        let heat = light_heat(full_heat);
         let dpi = SCREEN_DPI * s.dpi_scale;
         let mm = |px: u32| px as f64 / dpi * 25.4;
         let mut fig = Figure::new(mm(w.max(50)), mm(fh));
@@ -597,10 +675,10 @@ impl Renderer {
                     return img.clone();
                 }
             }
-            let Some(hm) = p.heatmap.as_ref() else {
+            if p.heatmap.is_none() {
                 return Vec::new();
-            };
-            let img = heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, pw, ph);
+            }
+            let img = heatmap_layer(full_heat, m, p.x_axis.range, p.y_axis.range, pw, ph);
             *made += 1;
             *cache = Some((key.clone(), (pw, ph), img.clone()));
             img

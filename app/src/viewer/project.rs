@@ -69,6 +69,9 @@ pub struct Project {
     pub labels: Vec<Label>,
     /// Next label id.
     pub next_id: u64,
+    /// Id of the selected label (null: none); absent in files written before it was kept.
+    #[serde(default)]
+    pub selected: Option<u64>,
 }
 
 /// The project of the current state; `project_path` makes the data path relative.
@@ -105,6 +108,7 @@ pub fn from_state(s: &ViewState, project_path: &Path) -> Project {
         overlays: s.overlays.clone(),
         labels: s.work.labels.clone(),
         next_id: s.work.next_id,
+        selected: s.work.selected,
     }
 }
 
@@ -133,7 +137,7 @@ pub fn restore(p: &Project, s: &mut ViewState) {
     s.work.next_id = p
         .next_id
         .max(p.labels.iter().map(|l| l.id + 1).max().unwrap_or(0));
-    s.work.selected = None;
+    s.work.selected = p.selected.filter(|id| p.labels.iter().any(|l| l.id == *id));
     s.undo.clear();
     s.redo.clear();
     s.refit();

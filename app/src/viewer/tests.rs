@@ -427,3 +427,193 @@ fn quit_asks_to_save_first() {
     let mut s = state();
     assert_eq!(s.apply(Action::Quit), vec![Effect::Save, Effect::Quit]);
 }
+
+/// A state on its own copy of the test fan whose data "file" is `dir/fan.csv`.
+fn state_with_file(dir: &std::path::Path) -> ViewState {
+    let bytes = b"a stand-in for the measured file\n";
+    let path = dir.join("fan.csv");
+    std::fs::write(&path, bytes).unwrap();
+    let mut o = BuildOptions::new(Stack::Monolayer);
+    o.index = false;
+    o.fallback_gate = SingleGate {
+        alpha_m2_per_v: ALPHA,
+        v_cnp: 0.0,
+    };
+    let vd = ViewData::build(
+        fan_map(321, 86),
+        Some(path),
+        super::data::fnv1a_hex(bytes),
+        &o,
+    )
+    .unwrap();
+    let mut s = ViewState::new(Arc::new(vd));
+    s.apply(Action::PlotArea(PlotArea {
+        x0: 100.0,
+        y0: 50.0,
+        x1: 1100.0,
+        y1: 750.0,
+    }));
+    s
+}
+
+#[test]
+fn project_round_trip_restores_every_kept_field() {
+    use super::project;
+    let dir = tempfile::tempdir().unwrap();
+    let mut s = state_with_file(dir.path());
+    // Two labels: one accepted from a ridge (with fit, readings and Hall checks), one typed,
+    // renamed and hidden; then a third typed one that stays selected.
+    s.apply(Action::ToggleSnap);
+    pick_ridge(&mut s, 6.0, &[3.0, 4.5, 6.0, 7.5, 8.5]);
+    s.apply(Action::CandidateBy(1));
+    s.apply(Action::Accept);
+    for text in ["-2 0", "10"] {
+        s.apply(Action::BeginTyping(TypingPurpose::NewLabel));
+        for c in text.chars() {
+            s.apply(Action::Type(c));
+        }
+        s.apply(Action::Commit);
+    }
+    s.apply(Action::SelectBy(-1));
+    s.apply(Action::SelectBy(-1));
+    s.apply(Action::BeginTyping(TypingPurpose::Rename));
+    for c in "hole side".chars() {
+        s.apply(Action::Type(c));
+    }
+    s.apply(Action::Commit);
+    s.apply(Action::ToggleHidden);
+    s.apply(Action::SelectBy(1));
+    // Every view and overlay setting away from its default.
+    s.apply(Action::Pointer(420.0, 310.0));
+    s.apply(Action::ZoomAt(420.0, 310.0, 1.7));
+    s.apply(Action::SetFrame(FrameKind::DensityField));
+    s.apply(Action::CycleChannel(1));
+    s.apply(Action::CyclePalette(2));
+    s.apply(Action::CycleScale);
+    s.apply(Action::Contrast(1.5));
+    s.apply(Action::ToggleFamily(
+        fanmark_core::line::Family::BrokenSymmetry,
+    ));
+    s.apply(Action::DenominatorBy(2));
+    s.apply(Action::ToggleStates);
+    s.apply(Action::ToggleHighlight);
+    s.apply(Action::CycleCut);
+    assert_eq!(s.work.labels.len(), 3);
+    assert!(!s.work.labels[0].evidence.readings.is_empty());
+    assert_eq!(
+        s.work.labels[0].reading, 1,
+        "the second reading was accepted"
+    );
+
+    let path = dir.path().join("fan.view.json");
+    let p = project::from_state(&s, &path);
+    project::save(&path, &p).unwrap();
+    // Saving again replaces the file and leaves no temporary file beside it.
+    project::save(&path, &p).unwrap();
+    let names: Vec<String> = std::fs::read_dir(dir.path())
+        .unwrap()
+        .map(|e| e.unwrap().file_name().to_string_lossy().to_string())
+        .collect();
+    assert_eq!(names.len(), 2, "only the data and the project: {names:?}");
+
+    let q = project::load(&path).unwrap();
+    assert_eq!(q, p, "the file holds exactly what was saved");
+    assert_eq!(q.data_file, Some(std::path::PathBuf::from("fan.csv")));
+    assert_eq!(
+        std::fs::canonicalize(project::data_path(&q, &path).unwrap()).unwrap(),
+        std::fs::canonicalize(s.data.source.as_ref().unwrap()).unwrap()
+    );
+    assert_eq!(q.data_checksum, s.data.checksum);
+    assert_eq!(q.calibration.alpha_m2_per_v, ALPHA);
+
+    let mut r = ViewState::new(s.data.clone());
+    project::restore(&q, &mut r);
+    assert_eq!(r.frame, FrameKind::DensityField);
+    assert_eq!(r.channel, ChannelChoice::Rxy);
+    assert_eq!(r.palette, s.palette);
+    assert_eq!(r.scale, ScaleKind::Log);
+    assert_eq!(r.clip_pct, 2.5);
+    assert_eq!(r.view, s.view);
+    assert_eq!(r.cut, CutKind::Row);
+    assert!(!r.snap);
+    assert_eq!(r.overlays, s.overlays);
+    assert_eq!(r.overlays.den_max, 5);
+    assert_eq!(r.work.labels, s.work.labels);
+    assert_eq!(r.work.next_id, 3);
+    assert_eq!(r.work.selected, s.work.selected);
+    assert_eq!(r.selected().unwrap().t, Rational::integer(-2));
+    let hidden = r.work.labels.iter().find(|l| l.hidden).unwrap();
+    assert_eq!(hidden.shown_text(), "hole side");
+    // History does not travel with the file: a fresh session starts with nothing to undo.
+    assert!(r.undo.is_empty() && r.redo.is_empty());
+    // A new label after reopening gets a fresh id.
+    r.apply(Action::BeginTyping(TypingPurpose::NewLabel));
+    r.apply(Action::Type('4'));
+    r.apply(Action::Commit);
+    assert_eq!(r.work.labels.last().unwrap().id, 3);
+}
+
+#[test]
+fn project_load_names_the_file_and_what_is_wrong() {
+    use super::project;
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("bad.view.json");
+    std::fs::write(
+        &path,
+        "{\n  \"format\": \"fanmark-view-project\",\n  \"version\": 1,\n  oops\n}\n",
+    )
+    .unwrap();
+    let e = project::load(&path).unwrap_err().to_string();
+    assert!(e.contains("bad.view.json") && e.contains("line 4"), "{e}");
+    std::fs::write(&path, "{\"format\": \"something else\", \"version\": 1}").unwrap();
+    let e = project::load(&path).unwrap_err().to_string();
+    assert!(e.contains("field `format`"), "{e}");
+    std::fs::write(
+        &path,
+        "{\"format\": \"fanmark-view-project\", \"version\": 99}",
+    )
+    .unwrap();
+    let e = project::load(&path).unwrap_err().to_string();
+    assert!(e.contains("field `version`") && e.contains("99"), "{e}");
+    // A truncated file (what a torn write would leave) is refused, not half-read.
+    let s = state_with_file(dir.path());
+    let good = serde_json::to_string_pretty(&project::from_state(&s, &path)).unwrap();
+    std::fs::write(&path, &good[..good.len() / 2]).unwrap();
+    assert!(project::load(&path).is_err());
+}
+
+#[test]
+fn sampled_view_equals_interpolating_the_map_at_each_sample() {
+    // Zoomed in far enough that the finest level is used: every sample must be the bilinear
+    // value of the map at that sample's (gate, field), in each frame.
+    for k in [
+        FrameKind::GateField,
+        FrameKind::DensityField,
+        FrameKind::FillingField,
+    ] {
+        let mut s = state();
+        s.apply(Action::SetFrame(k));
+        s.apply(Action::ZoomAt(600.0, 400.0, 4.0));
+        let (vals, xs, ys) = super::draw::sample_view(&s, 60, 40);
+        let frame = s.core_frame();
+        let mut compared = 0;
+        for (r, &y) in ys.iter().enumerate() {
+            for (c, &x) in xs.iter().enumerate() {
+                let (n, b) = frame
+                    .from_frame(fanmark_core::line::FramePoint { x, y })
+                    .unwrap();
+                let want = s
+                    .data
+                    .value_at(ChannelChoice::Rxx, s.data.gate.gate_for_density(n), b);
+                match want {
+                    Some(w) => {
+                        assert!(close(vals[[r, c]], w, 1e-9), "{k:?} ({c}, {r})");
+                        compared += 1;
+                    }
+                    None => assert!(!vals[[r, c]].is_finite(), "{k:?} ({c}, {r}) outside"),
+                }
+            }
+        }
+        assert!(compared > 1000, "{k:?}: {compared}");
+    }
+}

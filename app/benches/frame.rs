@@ -1,0 +1,250 @@
+//! Frame time of the viewer's draw path (the `Renderer` the window uses), printed as median and
+//! 95th percentile over many frames:
+//!
+//! 1. a 1600 × 1000 window on a 4000 × 1000 synthetic moiré fan with every line family on, the
+//!    indexer's states with their labels and twenty user labels: (a) full redraw with empty
+//!    caches, (b) pan (the heat map is re-sampled every frame), (c) pointer moves (overlay only:
+//!    the heat-map layer is reused);
+//! 2. a 10 000 × 10 000 map (10⁸ points): time to build the level-of-detail pyramid, then frames
+//!    at the full view and zoomed in, panning.
+//!
+//! Target: under 16 ms a frame. Ends with the peak resident memory (VmHWM).
+//!
+//! Run: `cargo bench -p fanmark --bench frame`.
+
+use fanmark::viewer::data::{BuildOptions, ChannelChoice, ChannelData, ViewData};
+use fanmark::viewer::draw::Renderer;
+use fanmark::viewer::lod::Pyramid;
+use fanmark::viewer::state::{Action, TypingPurpose, ViewState};
+use fanmark_core::constants::E_OVER_H;
+use fanmark_core::gate::SingleGate;
+use fanmark_core::index::features::FeatureIndex;
+use fanmark_core::index::stack::Stack;
+use fanmark_core::line::Family;
+use fanmark_core::map::{Axis, Channel, ChannelKind, Map, Quantity};
+use ndarray::Array2;
+use rayon::prelude::*;
+use std::sync::Arc;
+use std::time::Instant;
+
+/// Window size of every benchmark frame, physical px.
+const WINDOW: (u32, u32) = (1600, 1000);
+/// Lever arm of the synthetic device, m⁻²/V (7·10¹⁰ cm⁻²/V).
+const ALPHA: f64 = 7e14;
+/// One carrier per moiré cell of the synthetic device, m⁻² (2.4·10¹² cm⁻²).
+const N0: f64 = 2.4e16;
+
+/// R_xx (Ω) of a fan with dips on ν = ±2, ±6, ±10, ±14 and on the s = ±4 satellite lines,
+/// gate −40…40 V, field 0.5…9 T, `nx` × `ny` points.
+fn fan(nx: usize, ny: usize) -> (Axis, Axis, Array2<f64>) {
+    let x = Axis::uniform("vg", Quantity::Gate, -40.0, 80.0 / (nx - 1) as f64, nx).unwrap();
+    let y = Axis::uniform("b", Quantity::Field, 0.5, 8.5 / (ny - 1) as f64, ny).unwrap();
+    let (xv, yv) = (x.values().to_vec(), y.values().to_vec());
+    let rows: Vec<f64> = (0..ny)
+        .into_par_iter()
+        .flat_map_iter(|i| {
+            let b = yv[i];
+            let nb = E_OVER_H * b;
+            xv.iter()
+                .map(move |&vg| {
+                    let n = ALPHA * vg;
+                    let mut dip = 0.0;
+                    for s in [-4.0, 0.0, 4.0] {
+                        let n = n - s * N0;
+                        let nu = n / nb;
+                        let k = ((nu.abs() - 2.0) / 4.0).round().max(0.0);
+                        let near = nu.signum() * (4.0 * k + 2.0);
+                        if near.abs() <= 14.0 {
+                            dip += (-((n - near * nb) / (0.5 * nb)).powi(2)).exp();
+                        }
+                    }
+                    100.0 + 1000.0 * (1.0 - dip.min(1.0))
+                })
+                .collect::<Vec<_>>()
+        })
+        .collect();
+    (x, y, Array2::from_shape_vec((ny, nx), rows).unwrap())
+}
+
+fn stats(mut ms: Vec<f64>) -> (f64, f64) {
+    ms.sort_by(f64::total_cmp);
+    let q = |p: f64| ms[((ms.len() - 1) as f64 * p).round() as usize];
+    (q(0.5), q(0.95))
+}
+
+fn report(what: &str, ms: Vec<f64>) {
+    let n = ms.len();
+    let (med, p95) = stats(ms);
+    let verdict = if p95 < 16.0 { "under" } else { "OVER" };
+    println!("  {what:<44} median {med:6.2} ms   p95 {p95:6.2} ms   ({n} frames; {verdict} 16 ms)");
+}
+
+/// Time `frames` renders, calling `step` on the state before each.
+fn frames(
+    r: &mut Renderer,
+    s: &mut ViewState,
+    n: usize,
+    mut step: impl FnMut(&mut ViewState, usize),
+) -> Vec<f64> {
+    (0..n)
+        .map(|i| {
+            step(s, i);
+            let t = Instant::now();
+            let out = r
+                .render_settled(s, WINDOW.0, WINDOW.1, 1.0)
+                .expect("a frame");
+            std::hint::black_box(out.pixmap.data()[0]);
+            t.elapsed().as_secs_f64() * 1e3
+        })
+        .collect()
+}
+
+fn peak_rss_mb() -> f64 {
+    std::fs::read_to_string("/proc/self/status")
+        .ok()
+        .and_then(|t| {
+            t.lines()
+                .find(|l| l.starts_with("VmHWM:"))
+                .and_then(|l| l.split_whitespace().nth(1))
+                .and_then(|v| v.parse::<f64>().ok())
+        })
+        .map_or(f64::NAN, |kb| kb / 1024.0)
+}
+
+fn dense_map() {
+    println!("4000 × 1000 map, {}×{} window", WINDOW.0, WINDOW.1);
+    let (x, y, rxx) = fan(4000, 1000);
+    let mut map = Map::new(x, y);
+    map.add_channel(Channel::new("rxx", ChannelKind::Rxx, rxx))
+        .unwrap();
+    let mut o = BuildOptions::new(Stack::MonolayerMoire);
+    o.fallback_gate = SingleGate {
+        alpha_m2_per_v: ALPHA,
+        v_cnp: 0.0,
+    };
+    o.fallback_n0_m2 = Some(N0);
+    let t = Instant::now();
+    let vd = ViewData::build(map, None, String::new(), &o).unwrap();
+    println!(
+        "  view data built in {:.2} s ({} features, {} indexed states)",
+        t.elapsed().as_secs_f64(),
+        vd.features.points().len(),
+        vd.states.len()
+    );
+    let mut s = ViewState::new(Arc::new(vd));
+    for f in [
+        Family::BrokenSymmetry,
+        Family::CompositeFermion,
+        Family::Satellite,
+        Family::Wannier,
+    ] {
+        s.apply(Action::ToggleFamily(f));
+    }
+    for t in -10..10 {
+        s.apply(Action::BeginTyping(TypingPurpose::NewLabel));
+        for c in format!("{t} 0").chars() {
+            s.apply(Action::Type(c));
+        }
+        s.apply(Action::Commit);
+    }
+    let mut r = Renderer::default();
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    println!(
+        "  {} predicted lines shown, {} labels",
+        s.shown_lines().len(),
+        s.work.labels.len()
+    );
+    let mut cold = Vec::new();
+    for _ in 0..20 {
+        cold.extend(frames(&mut Renderer::default(), &mut s, 1, |_, _| {}));
+    }
+    report("(a) full redraw, empty caches", cold);
+    let pan = frames(&mut r, &mut s, 60, |s, i| {
+        let d = if (i / 15) % 2 == 0 { 7.0 } else { -7.0 };
+        s.apply(Action::PanBy(d, 0.0));
+    });
+    report("(b) pan: heat map re-sampled", pan);
+    let (p0, p1) = (s.plot, s.plot);
+    let overlay = frames(&mut r, &mut s, 60, |s, i| {
+        let f = i as f64 / 60.0;
+        s.apply(Action::Pointer(
+            p0.x0 + f * (p1.x1 - p0.x0),
+            0.5 * (p0.y0 + p0.y1),
+        ));
+    });
+    report("(c) pointer move: overlay only, layer cached", overlay);
+    println!("  heat-map layers made: {}", r.layers_made);
+}
+
+fn huge_map() {
+    let (nx, ny) = (10_000, 10_000);
+    println!(
+        "{nx} × {ny} map (10⁸ points), {}×{} window",
+        WINDOW.0, WINDOW.1
+    );
+    let t = Instant::now();
+    let (x, y, rxx) = fan(nx, ny);
+    println!("  values made in {:.2} s", t.elapsed().as_secs_f64());
+    let t = Instant::now();
+    let pyramid = Pyramid::new(rxx);
+    println!(
+        "  pyramid built in {:.2} s ({} levels)",
+        t.elapsed().as_secs_f64(),
+        pyramid.levels.len()
+    );
+    // The map keeps only its axes here; the pyramid's level 0 holds the values once.
+    let map = Map::new(x, y);
+    let vd = ViewData {
+        map,
+        source: None,
+        checksum: String::new(),
+        gate: SingleGate {
+            alpha_m2_per_v: ALPHA,
+            v_cnp: 0.0,
+        },
+        n0_m2: Some(N0),
+        stack: Stack::MonolayerMoire,
+        channels: vec![ChannelData {
+            choice: ChannelChoice::Rxx,
+            pyramid,
+        }],
+        features: FeatureIndex::new(Vec::new(), 80.0, 8.5).unwrap(),
+        states: Vec::new(),
+        sigma_xy_e2h: None,
+    };
+    let mut s = ViewState::new(Arc::new(vd));
+    s.apply(Action::ToggleFamily(Family::Satellite));
+    let mut r = Renderer::default();
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    let pan = |s: &mut ViewState, i: usize| {
+        let d = if (i / 15) % 2 == 0 { 9.0 } else { -9.0 };
+        s.apply(Action::PanBy(
+            d,
+            4.0 * if (i / 5) % 2 == 0 { 1.0 } else { -1.0 },
+        ));
+    };
+    report("full view, panning", frames(&mut r, &mut s, 40, pan));
+    let zoom = frames(&mut r, &mut s, 20, |s, i| {
+        s.apply(Action::Zoom(if i < 10 { 1.6 } else { 1.0 / 1.6 }));
+    });
+    report("zooming in ×1.6 and out, frame by frame", zoom);
+    for _ in 0..10 {
+        s.apply(Action::Zoom(1.6));
+    }
+    println!(
+        "  zoomed in: {:.4} V × {:.4} T shown",
+        s.view.x1 - s.view.x0,
+        s.view.y1 - s.view.y0
+    );
+    report(
+        "zoomed in ×110 (level 0), panning",
+        frames(&mut r, &mut s, 40, pan),
+    );
+}
+
+fn main() {
+    // `cargo bench` passes `--bench`; nothing to parse.
+    dense_map();
+    huge_map();
+    println!("peak resident memory (VmHWM): {:.0} MB", peak_rss_mb());
+}
