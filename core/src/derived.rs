@@ -149,14 +149,19 @@ fn derivative(
         return Ok(d * factor);
     }
     Err(Error::MapRequirement(format!(
-        "a derivative with respect to {} needs a {} axis, or a {} axis and a gate model; the map's axes are `{}` ({:?}) and `{}` ({:?})",
+        "a derivative with respect to {} needs a {} axis, or a {} axis and a gate model; {}",
         target.symbol(),
-        if target == Quantity::Density { "density" } else { "gate-voltage" },
-        if target == Quantity::Density { "gate-voltage" } else { "density" },
-        map.x().name,
-        map.x().quantity,
-        map.y().name,
-        map.y().quantity
+        if target == Quantity::Density {
+            "density"
+        } else {
+            "gate-voltage"
+        },
+        if target == Quantity::Density {
+            "gate-voltage"
+        } else {
+            "density"
+        },
+        map.axes_text()
     )))
 }
 

@@ -285,17 +285,10 @@ pub fn trace_from_map(map: &Map, at: At) -> Result<(Trace, f64)> {
         At::Gate(v) => (Quantity::Gate, v),
         At::Density(n) => (Quantity::Density, n),
     };
-    let (which, axis) = map.axis_of(q).ok_or_else(|| {
-        Error::MapRequirement(format!(
-            "a trace at fixed {} needs a {} axis; the map's axes are `{}` ({:?}) and `{}` ({:?})",
-            q.symbol(),
-            q.symbol(),
-            map.x().name,
-            map.x().quantity,
-            map.y().name,
-            map.y().quantity
-        ))
-    })?;
+    let (which, axis) = map.require_axis(
+        q,
+        &format!("a trace at fixed {0} needs a {0} axis", q.symbol()),
+    )?;
     let other = if which == 'x' { map.y() } else { map.x() };
     if other.quantity != Quantity::Field {
         return Err(Error::MapRequirement(format!(

@@ -86,15 +86,10 @@ fn symmetrize_rows(
 /// The field-symmetrised map on the common |B| ≥ 0 grid (see the module docs). Errors if the map
 /// has no field axis, no negative or no positive fields, or the two branches do not overlap.
 pub fn symmetrize_field(map: &Map) -> Result<Map> {
-    let (which, axis) = map.axis_of(Quantity::Field).ok_or_else(|| {
-        Error::MapRequirement(format!(
-            "field symmetrisation needs a magnetic-field axis; the map's axes are `{}` ({:?}) and `{}` ({:?})",
-            map.x().name,
-            map.x().quantity,
-            map.y().name,
-            map.y().quantity
-        ))
-    })?;
+    let (which, axis) = map.require_axis(
+        Quantity::Field,
+        "field symmetrisation needs a magnetic-field axis",
+    )?;
     let b = axis.values();
     let n_neg = b.partition_point(|&v| v <= 0.0);
     if b[0] >= 0.0 {

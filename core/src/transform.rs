@@ -27,15 +27,10 @@ pub fn gate_to_density(map: &Map, gate: &SingleGate) -> Result<Map> {
             ),
         ));
     }
-    let (which, axis) = map.axis_of(Quantity::Gate).ok_or_else(|| {
-        Error::MapRequirement(format!(
-            "density from one gate needs a gate-voltage axis; the map's axes are `{}` ({:?}) and `{}` ({:?})",
-            map.x().name,
-            map.x().quantity,
-            map.y().name,
-            map.y().quantity
-        ))
-    })?;
+    let (which, axis) = map.require_axis(
+        Quantity::Gate,
+        "density from one gate needs a gate-voltage axis",
+    )?;
     let mut n: Vec<f64> = axis.values().iter().map(|&v| gate.density(v)).collect();
     let reverse = alpha < 0.0;
     if reverse {

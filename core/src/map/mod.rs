@@ -242,6 +242,21 @@ impl Map {
             None
         }
     }
+    /// The axis of quantity `q`, or an error saying that `purpose` needs it (e.g. "field
+    /// symmetrisation needs a magnetic-field axis") and naming the map's axes.
+    pub fn require_axis(&self, q: Quantity, purpose: &str) -> Result<(char, &Axis)> {
+        self.axis_of(q)
+            .ok_or_else(|| Error::MapRequirement(format!("{purpose}; {}", self.axes_text())))
+    }
+
+    /// "the map's axes are `vg_V` (Gate) and `b_T` (Field)", for error messages.
+    pub fn axes_text(&self) -> String {
+        format!(
+            "the map's axes are `{}` ({:?}) and `{}` ({:?})",
+            self.x.name, self.x.quantity, self.y.name, self.y.quantity
+        )
+    }
+
     /// Replace an axis by one of the same length (an axis change, e.g. V_g → n).
     pub fn replace_axis(&mut self, which: char, axis: Axis) -> Result<()> {
         let slot = match which {
