@@ -4,8 +4,11 @@
 //! with its truth, loaded back through the same loader as a user's file, and reported on; then
 //! calibrated and indexed (`DEVICE.index.json`, `DEVICE.states.csv`) and drawn: R_xx with the
 //! found states labelled (PNG, SVG, PDF; single and double column), dR_xx/dn, and for the moiré
-//! device the Wannier plane.
+//! device the Wannier plane. The monolayer device adds a Shubnikov–de Haas/Berry-phase result and
+//! an activation gap from a temperature series, and the dual-gated device its (n, D) map
+//! ([`super::demo_quant`]).
 
+use super::demo_quant::{dual_gate_demo, gap_demo, sdh_demo};
 use super::figure::predicted_lines;
 use super::index::states_csv;
 use super::inspect;
@@ -86,7 +89,12 @@ pub fn run(args: Args) -> anyhow::Result<()> {
                     .with_context(|| format!("writing {}", path.display()))?;
             }
         }
+        if device == DeviceName::Wren {
+            sdh_demo(&args.out, device, &map, &report, syn.model.device.gate())?;
+            gap_demo(&args.out, device, report.calibration.gate())?;
+        }
     }
+    dual_gate_demo(&args.out)?;
     println!("demo written to {}", args.out.display());
     Ok(())
 }

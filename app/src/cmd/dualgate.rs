@@ -1,8 +1,10 @@
 //! `fanmark dualgate`: resample a (V_t, V_b) map at fixed field onto (n, D/ε₀) with the two-gate
 //! model, write it as long CSV, and a JSON summary with the constant-ν lines at the field and
-//! optional line cuts.
+//! optional line cuts; the (n, D) figure with the constant-ν lines with `--figure`.
 
+use super::figure_out::{file_title, FigureOut};
 use super::load_args::LoadArgs;
+use crate::figure::analysis::dual_gate_figure;
 use crate::progress::TermProgress;
 use anyhow::Result;
 use fanmark_core::dualgate::{filling_lines, line_cut, CutAt};
@@ -51,6 +53,9 @@ pub struct Args {
     /// JSON summary output.
     #[arg(long, default_value = "dualgate-nd.json")]
     pub summary: PathBuf,
+    /// The figure of the (n, D) map (first channel) with the constant-ν lines of --b.
+    #[command(flatten)]
+    pub figure: FigureOut,
     /// How to read the file.
     #[command(flatten)]
     pub load: LoadArgs,
@@ -58,6 +63,7 @@ pub struct Args {
 
 /// Run `fanmark dualgate`.
 pub fn run(args: Args) -> Result<()> {
+    args.figure.check()?;
     let map = load_map(&args.file, &args.load.options()?, &TermProgress::new())?;
     let mut gate = DualGate::new(args.ct, args.cb)?;
     gate.v_top_offset = args.vt0;
@@ -114,6 +120,16 @@ pub fn run(args: Args) -> Result<()> {
         }
         None => Vec::new(),
     };
+    args.figure.write_with(|size| {
+        dual_gate_figure(
+            &nd,
+            &channel,
+            args.b,
+            &lines,
+            &format!("{}: (n, D) map", file_title(&args.file)),
+            size,
+        )
+    })?;
     let summary = json!({
         "source": args.file.display().to_string(),
         "gate": gate,

@@ -1,7 +1,10 @@
 //! `fanmark gaps`: activation gap of a state from maps at several temperatures,
-//! R_xx = R₀ exp(−Δ/(2k_BT)) (factor 2 included), at one field or over a field range.
+//! R_xx = R₀ exp(−Δ/(2k_BT)) (factor 2 included), at one field or over a field range; the
+//! Arrhenius figure (and the gap against field) with `--figure`.
 
+use super::figure_out::FigureOut;
 use super::load_args::LoadArgs;
+use crate::figure::analysis::activation_figure;
 use crate::progress::TermProgress;
 use anyhow::{bail, Context, Result};
 use fanmark_core::gaps::{self, ActivatedRange, GapOptions, StateLine, ARRHENIUS_CONVENTION};
@@ -51,6 +54,10 @@ pub struct Args {
     /// Also write JSON to this file.
     #[arg(long, value_name = "FILE")]
     pub out_json: Option<PathBuf>,
+    /// The figure: the Arrhenius plot (at the field nearest the range's middle with
+    /// --b-range, with the gap against field below).
+    #[command(flatten)]
+    pub figure: FigureOut,
     /// How to read the files.
     #[command(flatten)]
     pub load: LoadArgs,
@@ -69,6 +76,16 @@ fn pair(text: &str, what: &str) -> Result<(f64, f64)> {
     Ok((p(v[0])?, p(v[1])?))
 }
 
+/// The state in a figure title: `ν = p/q` for s = 0, else `(t, s) = (…, …)`.
+fn state_title(state: StateLine) -> String {
+    let t = fanmark_core::line::signed_text;
+    if state.s.is_zero() {
+        format!("ν = {}", t(state.t))
+    } else {
+        format!("(t, s) = ({}, {})", t(state.t), t(state.s))
+    }
+}
+
 /// Run `fanmark gaps`.
 pub fn run(args: Args) -> Result<()> {
     let state = match (&args.state, &args.nu) {
@@ -85,6 +102,7 @@ pub fn run(args: Args) -> Result<()> {
         (None, Some(nu)) => StateLine::filling(nu.trim().parse::<Rational>().context("--nu")?),
         _ => bail!("give exactly one of --state t,s or --nu p/q"),
     };
+    args.figure.check()?;
     if let Some(t) = &args.temperatures {
         if t.len() != args.files.len() {
             bail!(
@@ -118,9 +136,13 @@ pub fn run(args: Args) -> Result<()> {
             t_max_k: hi,
         };
     }
+    let title = format!("activation gap of {}", state_title(state));
     let value = match (args.at_b, &args.b_range) {
         (Some(b), None) => {
             let a = gaps::activation(&maps, state, b, &opts)?;
+            let title = format!("{title} at {} T", a.b_t);
+            args.figure
+                .write_with(|size| activation_figure(&a, None, &title, size))?;
             if !args.json {
                 println!(
                     "Activation gap of (t, s) = ({}, {}) at {} T",
@@ -153,6 +175,22 @@ pub fn run(args: Args) -> Result<()> {
         (None, Some(r)) => {
             let range = pair(r, "--b-range")?;
             let g = gaps::gap_versus_field(&maps, state, range, &opts)?;
+            let middle = 0.5 * (range.0 + range.1);
+            let shown = g
+                .fits
+                .iter()
+                .min_by(|a, b| (a.b_t - middle).abs().total_cmp(&(b.b_t - middle).abs()));
+            match shown {
+                Some(a) => {
+                    let title = format!("{title}, (a) at {} T", a.b_t);
+                    args.figure
+                        .write_with(|size| activation_figure(a, Some(&g), &title, size))?
+                }
+                None if args.figure.figure.is_some() => {
+                    bail!("no field of the range gave a gap, so there is no figure to draw")
+                }
+                None => {}
+            }
             if !args.json {
                 println!(
                     "Activation gap of (t, s) = ({}, {}) versus field",

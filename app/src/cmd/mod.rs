@@ -2,8 +2,10 @@
 
 pub mod calibrate;
 pub mod demo;
+pub mod demo_quant;
 pub mod dualgate;
 pub mod figure;
+pub mod figure_out;
 pub mod gaps;
 pub mod index;
 pub mod inspect;

@@ -1,7 +1,10 @@
 //! `fanmark sdh`: Shubnikov–de Haas frequency, density and Landau-index (Berry-phase) fit of the
-//! R_xx trace at a fixed gate voltage or density. Table on stdout; JSON with `--json`.
+//! R_xx trace at a fixed gate voltage or density. Table on stdout; JSON with `--json`; the
+//! three-panel figure with `--figure`.
 
+use super::figure_out::{file_title, FigureOut};
 use super::load_args::LoadArgs;
+use crate::figure::analysis::sdh_figure;
 use crate::progress::TermProgress;
 use anyhow::{bail, Context, Result};
 use fanmark_core::gate::SingleGate;
@@ -51,6 +54,9 @@ pub struct Args {
     /// Also write the full result as JSON to this file.
     #[arg(long, value_name = "FILE")]
     pub out_json: Option<PathBuf>,
+    /// The figure.
+    #[command(flatten)]
+    pub figure: FigureOut,
     /// How to read the file.
     #[command(flatten)]
     pub load: LoadArgs,
@@ -58,6 +64,7 @@ pub struct Args {
 
 /// Run `fanmark sdh`.
 pub fn run(args: Args) -> Result<()> {
+    args.figure.check()?;
     let map = load_map(&args.file, &args.load.options()?, &TermProgress::new())?;
     let gate = args.alpha_cm2_per_v.map(|a| SingleGate {
         alpha_m2_per_v: cm2_to_m2(a),
@@ -94,6 +101,9 @@ pub fn run(args: Args) -> Result<()> {
     if let Some(p) = &args.out_json {
         write_atomic(p, json.as_bytes())?;
     }
+    let name = file_title(&args.file);
+    args.figure
+        .write_with(|size| sdh_figure(&res, &format!("{name}: Shubnikov–de Haas"), size))?;
     if args.json {
         println!("{json}");
         return Ok(());

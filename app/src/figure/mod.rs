@@ -1,7 +1,9 @@
 //! Publication figures: a pure scene model ([`scene`]), its layout into a display list
 //! ([`layout`], [`draw`]) and three backends drawing the same list: PNG ([`raster`]), SVG
-//! ([`svg`]) and PDF ([`pdf`]).
+//! ([`svg`]) and PDF ([`pdf`]). Scenes come from [`build`] (a map's heat map with lines and
+//! states) and [`analysis`] (SdH, activation-gap and (n, D) figures).
 
+pub mod analysis;
 pub mod build;
 pub mod draw;
 pub mod geom;

@@ -39,6 +39,19 @@ pub struct Span {
     pub levels: Vec<i8>,
 }
 
+/// `s` as markup that shows it literally (file names in titles): `_`, `^`, `{`, `}` and `\\`
+/// are escaped.
+pub fn escape_markup(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        if matches!(c, '_' | '^' | '{' | '}' | '\\') {
+            out.push('\\');
+        }
+        out.push(c);
+    }
+    out
+}
+
 /// Parse the markup into spans. Unbalanced braces are taken literally to the end.
 pub fn parse_markup(s: &str) -> Vec<Span> {
     let chars: Vec<char> = s.chars().collect();
@@ -211,6 +224,17 @@ pub fn glyph(c: char, px: f32) -> Glyph {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn escaped_file_names_show_literally() {
+        let name = r"run_07^b{2}\x.csv";
+        let spans = parse_markup(&escape_markup(name));
+        assert_eq!(spans.len(), 1, "{spans:?}");
+        assert_eq!(spans[0].text, name);
+        assert!(spans[0].levels.is_empty());
+        // Unescaped, the same name would set a subscript.
+        assert!(parse_markup(name).iter().any(|s| !s.levels.is_empty()));
+    }
 
     #[test]
     fn glyph_cache_stays_bounded_and_returns_the_same_glyph() {
