@@ -30,7 +30,8 @@ pub const MAX_FFT_LEN: usize = 1 << 24;
 pub const INDEX_CONVENTION: &str =
     "R_xx minima numbered by consecutive integers N (increasing with 1/B); \
 fit N = B_F·(1/B_N) + N0; a minimum sits at ν = g(N − N0); N0 = −1/2 ↔ Berry phase π, \
-N0 = 0 ↔ Berry phase 0 or 2π; labels chosen so that N0 ∈ (−3/4, 1/4]";
+N0 = 0 ↔ Berry phase 0 or 2π; labels chosen so that N0 with the slope held at the spectrum's \
+B_F falls in (−3/4, 1/4]";
 
 /// An R_xx trace against field: the input of the analysis.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -234,8 +235,45 @@ pub struct IndexFit {
     /// Frequency from the slope, T.
     #[serde(rename = "frequency_from_slope_T")]
     pub frequency_from_slope_t: f64,
+    /// The same minima with the slope held at the spectrum's fundamental B_F, which the whole
+    /// trace fixes far better than a few minima do: N₀ = mean(N − B_F/B_N) (common practice
+    /// when only a few minima are in the window).
+    pub at_spectrum_slope: InterceptAtSlope,
     /// The indexing convention, in words.
     pub convention: String,
+}
+
+/// The Landau-index intercept with the slope held at a given frequency.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct InterceptAtSlope {
+    /// The slope held, T.
+    #[serde(rename = "slope_T")]
+    pub slope_t: f64,
+    /// Intercept N₀ with the same labels as the free fit.
+    pub intercept: f64,
+    /// Its standard error: the scatter of N − B_F/B_N over √(points) (with k − 1 degrees of
+    /// freedom).
+    pub intercept_err: f64,
+    /// Berry phase φ_B / π in [0, 2).
+    pub berry_phase_over_pi: f64,
+    /// Its standard error, in units of π.
+    pub berry_phase_err_over_pi: f64,
+}
+
+/// N₀ = mean(N − slope·x) and its standard error.
+fn intercept_at_slope(x: &[f64], y: &[f64], slope: f64) -> InterceptAtSlope {
+    let k = x.len() as f64;
+    let r: Vec<f64> = x.iter().zip(y).map(|(&x, &y)| y - slope * x).collect();
+    let mean = r.iter().sum::<f64>() / k;
+    let var = r.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (k - 1.0).max(1.0);
+    let err = (var / k).sqrt();
+    InterceptAtSlope {
+        slope_t: slope,
+        intercept: mean,
+        intercept_err: err,
+        berry_phase_over_pi: (-2.0 * mean).rem_euclid(2.0),
+        berry_phase_err_over_pi: 2.0 * err,
+    }
 }
 
 /// Everything the analysis found, and what a figure needs to show it.
@@ -643,13 +681,14 @@ pub fn index_fit(inv_b: &[f64], osc: &[f64], frequency_t: f64) -> Result<IndexFi
     }
     let x: Vec<f64> = minima.clone();
     let y0: Vec<f64> = labels.iter().map(|&n| n as f64).collect();
-    let first = fit_line(&x, &y0)?;
-    // Shift the labels by an integer so that the intercept falls in (−3/4, 1/4].
-    let shift = (0.25 - first.intercept).floor();
+    // Shift the labels by an integer so that the intercept at the spectrum's slope (the
+    // better-determined one when there are few minima) falls in (−3/4, 1/4].
+    let shift = (0.25 - intercept_at_slope(&x, &y0, frequency_t).intercept).floor();
     let labels: Vec<i64> = labels.iter().map(|&n| n + shift as i64).collect();
     let y: Vec<f64> = labels.iter().map(|&n| n as f64).collect();
     let fit = fit_line(&x, &y)?;
     let berry = (-2.0 * fit.intercept).rem_euclid(2.0);
+    let at_spectrum_slope = intercept_at_slope(&x, &y, frequency_t);
     Ok(IndexFit {
         points: minima
             .iter()
@@ -665,6 +704,7 @@ pub fn index_fit(inv_b: &[f64], osc: &[f64], frequency_t: f64) -> Result<IndexFi
         berry_phase_over_pi: berry,
         berry_phase_err_over_pi: 2.0 * fit.intercept_err,
         frequency_from_slope_t: fit.slope,
+        at_spectrum_slope,
         fit,
         convention: INDEX_CONVENTION.into(),
     })
@@ -698,7 +738,29 @@ mod tests {
             let d = (idx.berry_phase_over_pi - berry).abs();
             assert!(d.min(2.0 - d) < 0.04, "{}", idx.berry_phase_over_pi);
             assert!((r.frequency_t / 10.339_169 - 1.0).abs() < 5e-3);
+            // Held at the spectrum's B_F the intercept agrees with the free fit.
+            let held = &idx.at_spectrum_slope;
+            assert_eq!(held.slope_t, r.frequency_t);
+            assert!((held.intercept - n0).abs() < 0.03, "{}", held.intercept);
+            assert!(held.intercept_err > 0.0 && held.intercept_err < 0.05);
         }
+    }
+
+    #[test]
+    fn held_slope_intercept_is_the_mean_offset() {
+        // N = 10·x − 0.5 with alternating ±0.01 scatter: mean offset −0.5, and the scatter
+        // (sample std 0.01095 for four points) over √4.
+        let x = [0.1, 0.2, 0.3, 0.4];
+        let y: Vec<f64> = x
+            .iter()
+            .enumerate()
+            .map(|(i, &x)| 10.0 * x - 0.5 + if i % 2 == 0 { 0.01 } else { -0.01 })
+            .collect();
+        let h = intercept_at_slope(&x, &y, 10.0);
+        assert!((h.intercept + 0.5).abs() < 1e-12);
+        let want = (4.0 * 0.01f64.powi(2) / 3.0).sqrt() / 2.0;
+        assert!((h.intercept_err - want).abs() < 1e-12);
+        assert!((h.berry_phase_over_pi - 1.0).abs() < 1e-12);
     }
 
     #[test]

@@ -68,14 +68,26 @@ pub fn sdh_demo(
         100.0 * (res.density_m2 / true_n - 1.0)
     );
     match (&res.index, &res.index_error) {
-        (Some(ix), _) => println!(
-            "  Landau index over {} minima: N₀ = {:.3} ± {:.3}, Berry phase = ({:.2} ± {:.2})π (monolayer truth: N₀ = −0.5, π)",
-            ix.points.len(),
-            ix.intercept,
-            ix.intercept_err,
-            ix.berry_phase_over_pi,
-            ix.berry_phase_err_over_pi
-        ),
+        (Some(ix), _) => {
+            let h = &ix.at_spectrum_slope;
+            println!(
+                "  Landau index over {} minima (monolayer truth: N₀ = −0.5, Berry phase π):\n    \
+                 free slope {:.2} ± {:.2} T: N₀ = {:.3} ± {:.3}, Berry phase = ({:.2} ± {:.2})π\n    \
+                 slope held at B_F = {:.2} T: N₀ = {:.3} ± {:.3}, Berry phase = ({:.2} ± {:.2})π",
+                ix.points.len(),
+                ix.fit.slope,
+                ix.fit.slope_err,
+                ix.intercept,
+                ix.intercept_err,
+                ix.berry_phase_over_pi,
+                ix.berry_phase_err_over_pi,
+                h.slope_t,
+                h.intercept,
+                h.intercept_err,
+                h.berry_phase_over_pi,
+                h.berry_phase_err_over_pi
+            )
+        }
         (None, Some(e)) => println!("  Landau index not fitted: {e}"),
         _ => {}
     }

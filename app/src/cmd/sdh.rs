@@ -155,6 +155,15 @@ pub fn run(args: Args) -> Result<()> {
                 ix.berry_phase_err_over_pi,
                 ix.frequency_from_slope_t
             );
+            let h = &ix.at_spectrum_slope;
+            println!(
+                "  slope held at B_F = {:.4} T: N0 = {:.3} ± {:.3}   Berry phase = ({:.2} ± {:.2})π",
+                h.slope_t,
+                h.intercept,
+                h.intercept_err,
+                h.berry_phase_over_pi,
+                h.berry_phase_err_over_pi
+            );
         }
         (None, Some(e)) => println!("  Landau index: not fitted: {e}"),
         _ => {}

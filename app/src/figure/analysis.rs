@@ -373,12 +373,11 @@ pub fn sdh_figure(res: &SdhResult, title: &str, size: FigureSize) -> Result<Figu
     if let Some(ix) = &res.index {
         let inv_max = ix.points.iter().map(|p| p.inv_b).fold(0.0, f64::max);
         let x_c = (0.0, 1.08 * inv_max.max(f64::MIN_POSITIVE));
-        let n_range = finite_range(
-            ix.points
-                .iter()
-                .map(|p| p.index as f64)
-                .chain([ix.intercept, ix.fit.eval(x_c.1)]),
-        )
+        let n_range = finite_range(ix.points.iter().map(|p| p.index as f64).chain([
+            ix.intercept,
+            ix.fit.eval(x_c.1),
+            ix.at_spectrum_slope.intercept,
+        ]))
         .unwrap_or((0.0, 1.0));
         let y_c = padded(n_range, 0.08, 0.35);
         let mut c = Panel::new(
@@ -394,6 +393,20 @@ pub fn sdh_figure(res: &SdhResult, title: &str, size: FigureSize) -> Result<Figu
         c.lines.push(Polyline {
             points: vec![(0.0, ix.fit.eval(0.0)), (x_c.1, ix.fit.eval(x_c.1))],
             style: LineStyle::solid(fitc, 0.8),
+        });
+        let held = &ix.at_spectrum_slope;
+        let held_style = LineStyle {
+            color: GREY,
+            width_pt: 0.7,
+            dash_pt: vec![3.0, 1.5],
+            outline: None,
+        };
+        c.lines.push(Polyline {
+            points: vec![
+                (0.0, held.intercept),
+                (x_c.1, held.intercept + held.slope_t * x_c.1),
+            ],
+            style: held_style.clone(),
         });
         c.lines.push(Polyline {
             points: vec![(x_c.0, 0.0), (x_c.1, 0.0)],
@@ -414,11 +427,24 @@ pub fn sdh_figure(res: &SdhResult, title: &str, size: FigureSize) -> Result<Figu
         });
         c.labels.push(info_label(
             format!(
-                "N_0 = {}   φ_B = ({})π",
+                "fit: N_0 = {}, φ_B = ({})π",
                 value_with_error(ix.intercept, ix.intercept_err),
                 value_with_error(ix.berry_phase_over_pi, ix.berry_phase_err_over_pi)
             ),
             top_anchors(x_c, y_c, 0.12),
+        ));
+        let below = |a: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+            a.into_iter()
+                .map(|(x, y)| (x, y - 0.13 * (y_c.1 - y_c.0)))
+                .collect()
+        };
+        c.labels.push(info_label(
+            format!(
+                "held: N_0 = {}, φ_B = ({})π",
+                value_with_error(held.intercept, held.intercept_err),
+                value_with_error(held.berry_phase_over_pi, held.berry_phase_err_over_pi)
+            ),
+            below(top_anchors(x_c, y_c, 0.12)),
         ));
         c.legend = Some(Legend {
             entries: vec![
@@ -432,6 +458,10 @@ pub fn sdh_figure(res: &SdhResult, title: &str, size: FigureSize) -> Result<Figu
                         "fit, B_F = {} T",
                         value_with_error(ix.fit.slope, ix.fit.slope_err)
                     ),
+                },
+                LegendEntry {
+                    swatch: Swatch::Line(held_style),
+                    text: format!("slope held at B_F = {:.2} T", held.slope_t),
                 },
             ],
             corner: Corner::BottomRight,
