@@ -124,9 +124,87 @@ fn clip_segment(a: (f64, f64), b: (f64, f64), r: &Rect) -> Option<ClippedSegment
     Some((at(t0), at(t1), t1 == 1.0))
 }
 
+/// Simplify a polyline (Ramer–Douglas–Peucker): keep the ends and only the vertices needed so
+/// that no dropped vertex lies farther than `tol` (same units as the points) from the kept
+/// polyline. `tol ≤ 0` or fewer than three points return the input unchanged.
+pub fn simplify_polyline(points: &[(f64, f64)], tol: f64) -> Vec<(f64, f64)> {
+    if !(tol > 0.0) || points.len() < 3 {
+        return points.to_vec();
+    }
+    let mut keep = vec![false; points.len()];
+    keep[0] = true;
+    keep[points.len() - 1] = true;
+    let mut spans = vec![(0usize, points.len() - 1)];
+    while let Some((a, b)) = spans.pop() {
+        let (p, q) = (points[a], points[b]);
+        let (dx, dy) = (q.0 - p.0, q.1 - p.1);
+        let len = dx.hypot(dy);
+        let dist = |v: (f64, f64)| {
+            if len > 0.0 {
+                ((v.0 - p.0) * dy - (v.1 - p.1) * dx).abs() / len
+            } else {
+                (v.0 - p.0).hypot(v.1 - p.1)
+            }
+        };
+        let (mut far, mut worst) = (a, 0.0);
+        for (i, &v) in points.iter().enumerate().take(b).skip(a + 1) {
+            let d = dist(v);
+            if d > worst {
+                (far, worst) = (i, d);
+            }
+        }
+        if worst > tol {
+            keep[far] = true;
+            spans.push((a, far));
+            spans.push((far, b));
+        }
+    }
+    points
+        .iter()
+        .zip(keep)
+        .filter_map(|(&v, k)| k.then_some(v))
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn simplify_keeps_corners_and_drops_collinear_points() {
+        // Points on two straight legs meeting at (10, 0) → (10, 10): only the ends and the corner
+        // matter.
+        let mut pts: Vec<(f64, f64)> = (0..=10).map(|i| (i as f64, 0.0)).collect();
+        pts.extend((1..=10).map(|i| (10.0, i as f64)));
+        assert_eq!(
+            simplify_polyline(&pts, 0.01),
+            vec![(0.0, 0.0), (10.0, 0.0), (10.0, 10.0)]
+        );
+        // A hyperbola y = 1/x sampled densely: every dropped vertex within the tolerance of the
+        // kept polyline, and far fewer vertices.
+        let curve: Vec<(f64, f64)> = (0..200)
+            .map(|i| {
+                let x = 1.0 + i as f64 * 0.02;
+                (x, 1.0 / x)
+            })
+            .collect();
+        let kept = simplify_polyline(&curve, 1e-3);
+        assert!(kept.len() < 40, "{} vertices kept", kept.len());
+        for v in &curve {
+            let d = kept
+                .windows(2)
+                .map(|w| segment_distance(*v, w[0], w[1]))
+                .fold(f64::INFINITY, f64::min);
+            assert!(d <= 1e-3 + 1e-12, "vertex {v:?} is {d} away");
+        }
+        assert_eq!(simplify_polyline(&curve, 0.0), curve);
+    }
+
+    fn segment_distance(v: (f64, f64), a: (f64, f64), b: (f64, f64)) -> f64 {
+        let (dx, dy) = (b.0 - a.0, b.1 - a.1);
+        let t = (((v.0 - a.0) * dx + (v.1 - a.1) * dy) / (dx * dx + dy * dy)).clamp(0.0, 1.0);
+        (v.0 - a.0 - t * dx).hypot(v.1 - a.1 - t * dy)
+    }
 
     #[test]
     fn clipping_keeps_inside_parts_only() {

@@ -2,7 +2,7 @@
 //! tick-label and axis-label extents; tick density follows from the space the labels need.
 
 use super::draw::{DisplayList, Item, Stroke};
-use super::geom::{clip_polyline, Rect};
+use super::geom::{clip_polyline, simplify_polyline, Rect};
 use super::heatmap::{resolve_mapping, validate, ColorMapping};
 use super::labels::{place_labels, LabelRequest};
 use super::scene::{
@@ -378,45 +378,8 @@ fn layout_panel(
             rect: r,
         });
     }
-    type Parts = Vec<Vec<(f64, f64)>>;
-    let page_lines: Vec<(Parts, &LineStyle)> = p
-        .lines
-        .iter()
-        .map(|l| {
-            let pts: Vec<(f64, f64)> = l.points.iter().map(|&(x, y)| (px(x), py(y))).collect();
-            (clip_polyline(&pts, &r), &l.style)
-        })
-        .collect();
-    for (parts, style) in &page_lines {
-        if let Some(o) = style.outline {
-            for part in parts {
-                let mut s = stroke_of(style);
-                s.color = o;
-                s.width += 1.2;
-                items.push(line_item(part.clone(), s, Some(r)));
-            }
-        }
-    }
-    for (parts, style) in &page_lines {
-        for part in parts {
-            items.push(line_item(part.clone(), stroke_of(style), Some(r)));
-        }
-    }
-    for m in &p.markers {
-        for &(x, y) in &m.points {
-            let (cx, cy) = (px(x), py(y));
-            if r.contains(cx, cy) {
-                items.extend(marker_items(&m.style, cx, cy, Some(r)));
-            }
-        }
-    }
-    items.push(Item::Path {
-        points: rect_points(&r),
-        closed: true,
-        fill: None,
-        stroke: Some(frame_stroke()),
-        clip: None,
-    });
+    data_items(p, &r, 0.0, items);
+    items.push(plot_frame_item(&r));
 
     // Bottom and left axes.
     let tick = |a: (f64, f64), b: (f64, f64)| line_item(vec![a, b], frame_stroke(), None);
@@ -526,43 +489,7 @@ fn layout_panel(
             (Rect::new(x0, y0, x0 + bw, y0 + bh), blocks, row, pad, sw, l)
         });
     let obstacles: Vec<Rect> = legend.iter().map(|l| l.0).collect();
-    let label_blocks: Vec<TextBlock> = p
-        .labels
-        .iter()
-        .map(|l| text::layout(&l.text, l.size_pt))
-        .collect();
-    let pad = 0.8;
-    let requests: Vec<LabelRequest> = p
-        .labels
-        .iter()
-        .zip(&label_blocks)
-        .map(|(l, b)| LabelRequest {
-            width: b.width + 2.0 * pad,
-            height: b.height() + 2.0 * pad,
-            anchors: l.anchors.iter().map(|&(x, y)| (px(x), py(y))).collect(),
-        })
-        .collect();
-    let bounds = Rect::new(r.x0 + 1.0, r.y0 + 1.0, r.x1 - 1.0, r.y1 - 1.0);
-    let placement = place_labels(&requests, &bounds, &obstacles, 1.5);
-    for ((l, b), bx) in p.labels.iter().zip(label_blocks).zip(&placement.boxes) {
-        let Some(bx) = bx else { continue };
-        if let Some(bg) = l.background {
-            items.push(Item::Path {
-                points: rect_points(bx),
-                closed: true,
-                fill: Some(bg),
-                stroke: None,
-                clip: None,
-            });
-        }
-        items.push(Item::Text {
-            x: bx.x0 + pad,
-            y: bx.y0 + pad + b.ascent,
-            block: b,
-            vertical: false,
-            color: l.color,
-        });
-    }
+    let dropped = label_items(p, &r, &obstacles, items);
     if let Some((lr, blocks, row, lpad, sw, l)) = legend {
         items.push(Item::Path {
             points: rect_points(&lr),
@@ -594,7 +521,119 @@ fn layout_panel(
             push_text(items, b, sx + sw + 3.0, base, 0.0, false);
         }
     }
-    Ok((placement.dropped, mapping))
+    Ok((dropped, mapping))
+}
+
+/// Map a point of the panel's axes (data units) to page pt inside the plot rectangle `r`.
+fn page_point(p: &Panel, r: &Rect, (x, y): (f64, f64)) -> (f64, f64) {
+    let (xa, xb) = p.x_axis.range;
+    let (ya, yb) = p.y_axis.range;
+    (
+        r.x0 + (x - xa) / (xb - xa) * r.width(),
+        r.y1 - (y - ya) / (yb - ya) * r.height(),
+    )
+}
+
+/// The frame drawn around a plot rectangle `r` (page pt).
+pub fn plot_frame_item(r: &Rect) -> Item {
+    Item::Path {
+        points: rect_points(r),
+        closed: true,
+        fill: None,
+        stroke: Some(frame_stroke()),
+        clip: None,
+    }
+}
+
+/// True when `item` is the frame [`plot_frame_item`] draws around `r`.
+pub fn is_plot_frame(item: &Item, r: &Rect) -> bool {
+    matches!(item, Item::Path { points, closed: true, fill: None, clip: None, .. }
+        if *points == rect_points(r))
+}
+
+/// The panel's data overlay in the plot rectangle `r` (page pt): every line's outline, then
+/// every line, then the markers inside `r`, all clipped to `r`. With `simplify_pt` > 0 each
+/// polyline keeps only the vertices needed to stay within that distance (pt) of it.
+pub fn data_items(p: &Panel, r: &Rect, simplify_pt: f64, items: &mut Vec<Item>) {
+    type Parts = Vec<Vec<(f64, f64)>>;
+    let page_lines: Vec<(Parts, &LineStyle)> = p
+        .lines
+        .iter()
+        .map(|l| {
+            let pts: Vec<(f64, f64)> = l.points.iter().map(|&q| page_point(p, r, q)).collect();
+            let parts = clip_polyline(&pts, r)
+                .into_iter()
+                .map(|part| simplify_polyline(&part, simplify_pt))
+                .collect();
+            (parts, &l.style)
+        })
+        .collect();
+    for (parts, style) in &page_lines {
+        if let Some(o) = style.outline {
+            for part in parts {
+                let mut s = stroke_of(style);
+                s.color = o;
+                s.width += 1.2;
+                items.push(line_item(part.clone(), s, Some(*r)));
+            }
+        }
+    }
+    for (parts, style) in &page_lines {
+        for part in parts {
+            items.push(line_item(part.clone(), stroke_of(style), Some(*r)));
+        }
+    }
+    for m in &p.markers {
+        for &q in &m.points {
+            let (cx, cy) = page_point(p, r, q);
+            if r.contains(cx, cy) {
+                items.extend(marker_items(&m.style, cx, cy, Some(*r)));
+            }
+        }
+    }
+}
+
+/// The panel's text labels placed inside the plot rectangle `r` (page pt) clear of each other
+/// and of `obstacles`: background boxes and text. Returns how many could not be placed.
+pub fn label_items(p: &Panel, r: &Rect, obstacles: &[Rect], items: &mut Vec<Item>) -> usize {
+    let label_blocks: Vec<TextBlock> = p
+        .labels
+        .iter()
+        .map(|l| text::layout(&l.text, l.size_pt))
+        .collect();
+    let pad = 0.8;
+    let requests: Vec<LabelRequest> = p
+        .labels
+        .iter()
+        .zip(&label_blocks)
+        .map(|(l, b)| LabelRequest {
+            width: b.width + 2.0 * pad,
+            height: b.height() + 2.0 * pad,
+            anchors: l.anchors.iter().map(|&q| page_point(p, r, q)).collect(),
+        })
+        .collect();
+    let bounds = Rect::new(r.x0 + 1.0, r.y0 + 1.0, r.x1 - 1.0, r.y1 - 1.0);
+    let placement = place_labels(&requests, &bounds, obstacles, 1.5);
+    for ((l, b), bx) in p.labels.iter().zip(label_blocks).zip(&placement.boxes) {
+        let Some(bx) = bx else { continue };
+        if let Some(bg) = l.background {
+            items.push(Item::Path {
+                points: rect_points(bx),
+                closed: true,
+                fill: Some(bg),
+                stroke: None,
+                clip: None,
+            });
+        }
+        items.push(Item::Text {
+            x: bx.x0 + pad,
+            y: bx.y0 + pad + b.ascent,
+            block: b,
+            vertical: false,
+            color: l.color,
+        });
+    }
+    placement.dropped
 }
 
 /// Check the sizes in a panel's overlay styles: widths ≥ 0, dashes and sizes > 0, all finite.

@@ -7,6 +7,7 @@ pub mod analysis;
 pub mod build;
 pub mod draw;
 pub mod geom;
+pub mod hairline;
 pub mod heatmap;
 pub mod labels;
 pub mod layout;

@@ -93,55 +93,75 @@ pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource)
                 let img = strip_rgba(&hm.colors, pw, ph);
                 blit_opaque(&mut pm, &img, x0, y0, pw, ph);
             }
-            Item::Path {
-                points,
-                closed,
-                fill,
-                stroke,
-                clip,
-            } => {
-                let mask = clip.map(|c| {
-                    if let Some(i) = masks.iter().position(|(r, _)| *r == c) {
-                        i
-                    } else {
-                        masks.push((c, rect_mask(&c, scale, w, h)));
-                        masks.len() - 1
-                    }
-                });
-                let mask = mask.map(|i| &masks[i].1);
-                draw_path(
-                    &mut pm,
-                    points,
-                    *closed,
-                    *fill,
-                    stroke.as_ref(),
-                    scale,
-                    mask,
-                );
-            }
-            Item::Text {
-                block,
-                x,
-                y,
-                vertical,
-                color,
-            } => draw_text(
-                &mut pm,
-                block,
-                *x * scale,
-                *y * scale,
-                scale,
-                *vertical,
-                *color,
-            ),
+            other => draw_item(&mut pm, other, scale, (0.0, 0.0), &mut masks),
         }
     }
     Ok(pm)
 }
 
-fn rect_mask(c: &Rect, scale: f64, w: u32, h: u32) -> Mask {
+/// Draw one path or text item into `pm` whose pixel (0, 0) is the page's device pixel `origin`
+/// (so a pixmap can hold one region of the page). Clip rectangles become masks, kept in `masks`
+/// for the next item with the same clip. Heat maps and colour strips are the caller's job.
+pub fn draw_item(
+    pm: &mut Pixmap,
+    item: &Item,
+    scale: f64,
+    origin: (f64, f64),
+    masks: &mut Vec<(Rect, Mask)>,
+) {
+    match item {
+        Item::Path {
+            points,
+            closed,
+            fill,
+            stroke,
+            clip,
+        } => {
+            let mask = clip.map(|c| {
+                if let Some(i) = masks.iter().position(|(r, _)| *r == c) {
+                    i
+                } else {
+                    masks.push((c, clip_mask(&c, scale, origin, pm.width(), pm.height())));
+                    masks.len() - 1
+                }
+            });
+            let mask = mask.map(|i| &masks[i].1);
+            draw_path(
+                pm,
+                points,
+                *closed,
+                *fill,
+                stroke.as_ref(),
+                (scale, origin),
+                mask,
+            );
+        }
+        Item::Text {
+            block,
+            x,
+            y,
+            vertical,
+            color,
+        } => draw_text(
+            pm,
+            block,
+            *x * scale - origin.0,
+            *y * scale - origin.1,
+            scale,
+            *vertical,
+            *color,
+        ),
+        Item::HeatMap { .. } | Item::ColorStrip { .. } => {}
+    }
+}
+
+/// A `w`×`h` mask, for a pixmap whose pixel (0, 0) is device pixel `origin`, that is opaque
+/// over the whole device pixels page rectangle `c` covers at `scale` px/pt.
+pub fn clip_mask(c: &Rect, scale: f64, origin: (f64, f64), w: u32, h: u32) -> Mask {
     let mut m = Mask::new(w, h).expect("mask of the pixmap's own positive size");
     let (x0, y0, x1, y1) = pixel_rect(c, scale);
+    let (x0, y0) = (x0 as f64 - origin.0, y0 as f64 - origin.1);
+    let (x1, y1) = (x1 as f64 - origin.0, y1 as f64 - origin.1);
     if let Some(r) = tiny_skia::Rect::from_ltrb(x0 as f32, y0 as f32, x1 as f32, y1 as f32) {
         let path = PathBuilder::from_rect(r);
         m.fill_path(&path, FillRule::Winding, false, Transform::identity());
@@ -186,22 +206,28 @@ fn blit_opaque(pm: &mut Pixmap, img: &[u8], x0: i64, y0: i64, w: u32, h: u32) {
     }
 }
 
+/// Fill and/or stroke a polyline given in pt; `at` is (px per pt, device pixel at the pixmap's
+/// (0, 0)).
 fn draw_path(
     pm: &mut Pixmap,
     points: &[(f64, f64)],
     closed: bool,
     fill: Option<[u8; 3]>,
     stroke: Option<&Stroke>,
-    scale: f64,
+    at: (f64, (f64, f64)),
     mask: Option<&Mask>,
 ) {
     if points.len() < 2 {
         return;
     }
+    let (scale, (ox, oy)) = at;
+    let dev = |p: &(f64, f64)| ((p.0 * scale - ox) as f32, (p.1 * scale - oy) as f32);
     let mut pb = PathBuilder::new();
-    pb.move_to((points[0].0 * scale) as f32, (points[0].1 * scale) as f32);
+    let (x, y) = dev(&points[0]);
+    pb.move_to(x, y);
     for p in &points[1..] {
-        pb.line_to((p.0 * scale) as f32, (p.1 * scale) as f32);
+        let (x, y) = dev(p);
+        pb.line_to(x, y);
     }
     if closed {
         pb.close();

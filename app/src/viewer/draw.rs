@@ -1,15 +1,19 @@
 //! Drawing: the view state as a figure scene (heat map panel, overlays, labels, an optional
 //! line-cut panel), rasterised through the figure backend, plus the status line and the key-map
-//! overlay. [`figure_of`] is a pure function of the state; [`Renderer`] adds a cache of the
-//! heat-map layer so that pointer moves and overlay changes redraw only the overlay.
+//! overlay. [`figure_of`] is a pure function of the state; [`Renderer`] keeps the heat map, the
+//! base layer and the overlay layer (see [`super::layers`]) so that a pointer move composites
+//! cached layers and draws only the pointer's own items; [`render_direct`] draws the same frame
+//! without caches, as the reference.
 
 use super::data::ChannelChoice;
 use super::keys::help_lines;
+use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
 use crate::figure::draw::Item;
+use crate::figure::geom::Rect;
 use crate::figure::heatmap::ColorMapping;
-use crate::figure::layout::layout;
-use crate::figure::raster::{draw_list_with, heatmap_layer, pixel_rect};
+use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
+use crate::figure::raster::{clip_mask, draw_item, draw_list_with, heatmap_layer, pixel_rect};
 use crate::figure::scene::{
     AxisSpec, ColorBar, ColorScale, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers,
     Panel, Polyline, Resample, TextLabel, ValueRange,
@@ -19,7 +23,8 @@ use fanmark_core::constants::E_OVER_H;
 use fanmark_core::line::{Family, FramePoint, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
-use tiny_skia::Pixmap;
+use std::sync::Arc;
+use tiny_skia::{Mask, Pixmap};
 
 /// Screen resolution at scale factor 1, dots per inch (the common desktop convention).
 pub const SCREEN_DPI: f64 = 96.0;
@@ -142,9 +147,19 @@ pub fn colour_range(values: &Array2<f64>, clip_pct: f64, signed: bool, log: bool
     if v.is_empty() {
         return (0.0, 1.0);
     }
-    v.sort_by(f64::total_cmp);
-    let q = |p: f64| v[((p / 100.0) * (v.len() - 1) as f64).round() as usize];
-    let (mut lo, mut hi) = (q(clip_pct), q(100.0 - clip_pct));
+    // The two order statistics by selection (linear time), as a full sort would give them.
+    let rank = |p: f64| ((p / 100.0) * (v.len() - 1) as f64).round() as usize;
+    let (ra, rb) = (rank(clip_pct), rank(100.0 - clip_pct));
+    let (r_lo, r_hi) = (ra.min(rb), ra.max(rb));
+    let (_, &mut a, upper) = v.select_nth_unstable_by(r_lo, f64::total_cmp);
+    let b = if r_hi == r_lo {
+        a
+    } else {
+        *upper
+            .select_nth_unstable_by(r_hi - r_lo - 1, f64::total_cmp)
+            .1
+    };
+    let (mut lo, mut hi) = if ra <= rb { (a, b) } else { (b, a) };
     if signed && !log {
         let m = lo.abs().max(hi.abs());
         lo = -m;
@@ -198,6 +213,14 @@ fn scaled(points: Vec<(f64, f64)>, fx: f64) -> Vec<(f64, f64)> {
 
 /// The map panel: heat map (values from `heat`), axes, colour bar and every overlay.
 fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
+    let mut p = map_axes(s, heat);
+    add_kept_overlay(s, &mut p);
+    add_pointer_overlay(s, &mut p);
+    p
+}
+
+/// The map panel's axes, heat map (values from `heat`) and colour bar, without overlays.
+fn map_axes(s: &ViewState, heat: Option<HeatMap>) -> Panel {
     let (xl, fx) = x_axis_unit(s.frame);
     let v = s.view;
     let mut p = Panel::new(
@@ -217,6 +240,13 @@ fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
             width_mm: 3.0,
         });
     }
+    p
+}
+
+/// The overlays that stay while the pointer moves: predicted lines, detected states, labels
+/// with their lines and the collected picks, added to `p` (which has the map's axes).
+fn add_kept_overlay(s: &ViewState, p: &mut Panel) {
+    let fx = x_axis_unit(s.frame).1;
     for l in s.shown_lines() {
         for pts in clipped(s, l) {
             p.lines.push(Polyline {
@@ -279,6 +309,35 @@ fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
             });
         }
     }
+    let frame = s.core_frame();
+    let picks: Vec<(f64, f64)> = s
+        .work
+        .picks
+        .iter()
+        .filter_map(|pk| {
+            frame
+                .to_frame(s.data.gate.density(pk.gate_v), pk.field_t)
+                .ok()
+                .map(|q| (q.x * fx, q.y))
+        })
+        .collect();
+    if !picks.is_empty() {
+        p.markers.push(Markers {
+            points: picks,
+            style: MarkerStyle {
+                shape: MarkerShape::Circle,
+                size_pt: 4.5,
+                fill: [255, 60, 200],
+                edge: [0, 0, 0],
+            },
+        });
+    }
+}
+
+/// The overlays that follow the pointer and the chosen reading: the highlighted line under the
+/// pointer, the chosen candidate's line and the snap marker, added to `p`.
+fn add_pointer_overlay(s: &ViewState, p: &mut Panel) {
+    let fx = x_axis_unit(s.frame).1;
     if s.overlays.highlight {
         if let Some(&(t, sv, _)) = s.lines_under_pointer(8.0 * s.dpi_scale).first() {
             for pts in clipped(s, &ts_line(t, sv)) {
@@ -308,28 +367,6 @@ fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
         }
     }
     let frame = s.core_frame();
-    let picks: Vec<(f64, f64)> = s
-        .work
-        .picks
-        .iter()
-        .filter_map(|pk| {
-            frame
-                .to_frame(s.data.gate.density(pk.gate_v), pk.field_t)
-                .ok()
-                .map(|q| (q.x * fx, q.y))
-        })
-        .collect();
-    if !picks.is_empty() {
-        p.markers.push(Markers {
-            points: picks,
-            style: MarkerStyle {
-                shape: MarkerShape::Circle,
-                size_pt: 4.5,
-                fill: [255, 60, 200],
-                edge: [0, 0, 0],
-            },
-        });
-    }
     if let Some((g, b, _)) = s.snapped() {
         if let Ok(q) = frame.to_frame(s.data.gate.density(g), b) {
             p.markers.push(Markers {
@@ -343,7 +380,6 @@ fn map_panel(s: &ViewState, heat: Option<HeatMap>) -> Panel {
             });
         }
     }
-    p
 }
 
 fn anchors(seg: &[(f64, f64)], fx: f64) -> Vec<(f64, f64)> {
@@ -570,13 +606,180 @@ fn light_heat(h: &HeatMap) -> HeatMap {
     }
 }
 
-/// Renders states to pixels, keeping the last heat-map layer.
+/// Where the map's plot sits in a rendered frame: its rectangle in page pt, the device scale
+/// (px per pt), the same rectangle in window pixels and the axis ranges (display units).
+#[derive(Clone, Copy, Debug, PartialEq)]
+struct PlotGeometry {
+    rect: Rect,
+    scale: f64,
+    pixels: PixelRect,
+    x_range: (f64, f64),
+    y_range: (f64, f64),
+}
+
+impl PlotGeometry {
+    /// A panel with the plot's axis ranges and no content, to lay overlays out in.
+    fn panel(&self) -> Panel {
+        Panel::new(
+            AxisSpec {
+                label: String::new(),
+                range: self.x_range,
+            },
+            AxisSpec {
+                label: String::new(),
+                range: self.y_range,
+            },
+        )
+    }
+
+    /// The plot rectangle as the viewer's plot area, px.
+    fn area(&self) -> PlotArea {
+        let (x0, y0, x1, y1) = self.pixels;
+        PlotArea {
+            x0: x0 as f64,
+            y0: y0 as f64,
+            x1: x1 as f64,
+            y1: y1 as f64,
+        }
+    }
+}
+
+/// Largest distance (pt) an overlay polyline may move when simplified: a twentieth of a pixel
+/// at 96 dpi.
+const SIMPLIFY_PT: f64 = 0.0375;
+
+/// Everything the base layer (background, heat map, axes, colour bar, line-cut panel) depends on.
+#[derive(Clone, Debug, PartialEq)]
+struct BaseKey {
+    heat: LayerKey,
+    window: (u32, u32),
+    dpi_scale: f64,
+    cut: Option<Cut>,
+}
+
+/// The base layer: the whole window without the map's overlays, the plot frame, the status line
+/// and the transient boxes; opaque.
+struct Base {
+    key: BaseKey,
+    pixmap: Pixmap,
+    plot: Option<PlotGeometry>,
+    /// The frame around the plot, drawn over the overlays.
+    frame: Option<Item>,
+    /// Clip of the plot for the pointer overlay, window-sized.
+    clip: Option<Mask>,
+}
+
+/// Everything the kept overlay depends on apart from the viewport.
+#[derive(Clone, Debug, PartialEq)]
+struct OverlayContent {
+    frame: FrameKind,
+    overlays: super::state::Overlays,
+    work: super::state::Work,
+    /// Identity of the shared data (states, gate, n₀) and of the candidate lines.
+    data: usize,
+    lines: usize,
+    rect: Rect,
+    scale: f64,
+    pixels: PixelRect,
+}
+
+/// The kept overlay's layer and what it was drawn for.
+struct Overlay {
+    content: OverlayContent,
+    view: Viewport,
+    layer: OverlayLayer,
+}
+
+/// The frame's pieces as page items: the chrome (heat map, axes, colour bar, cut panel) laid
+/// out as a figure, the plot geometry and the plot frame taken out of the chrome.
+struct Chrome {
+    fig: Figure,
+    list: crate::figure::draw::DisplayList,
+    plot: Option<PlotGeometry>,
+    frame: Option<Item>,
+}
+
+fn chrome(s: &ViewState, w: u32, h: u32, heat: HeatMap, cut: Option<&Cut>) -> Result<Chrome> {
+    let status = (STATUS_PX * s.dpi_scale).round() as u32;
+    let fh = h.saturating_sub(status).max(50);
+    let dpi = SCREEN_DPI * s.dpi_scale;
+    let mm = |px: u32| px as f64 / dpi * 25.4;
+    let mut fig = Figure::new(mm(w.max(50)), mm(fh));
+    fig.dpi = dpi;
+    fig.font_pt = 9.0;
+    let axes = map_axes(s, Some(heat));
+    let (x_range, y_range) = (axes.x_axis.range, axes.y_axis.range);
+    fig.panels.push(axes);
+    if let Some(p) = cut.and_then(cut_panel) {
+        fig.columns = 2;
+        fig.panels.push(p);
+    }
+    let mut list = layout(&fig)?;
+    let scale = fig.pixel_size().0 as f64 / list.width;
+    let plot = list.items.iter().find_map(|i| match i {
+        Item::HeatMap { panel: 0, rect } => Some(PlotGeometry {
+            rect: *rect,
+            scale,
+            pixels: pixel_rect(rect, scale),
+            x_range,
+            y_range,
+        }),
+        _ => None,
+    });
+    let frame = plot.and_then(|g| {
+        let i = list.items.iter().position(|i| is_plot_frame(i, &g.rect))?;
+        Some(list.items.remove(i))
+    });
+    Ok(Chrome {
+        fig,
+        list,
+        plot,
+        frame,
+    })
+}
+
+/// The kept overlay of `s` as page items in the plot `g`: line outlines, lines, pick markers,
+/// then the labels. Without clip rectangles: the caller clips to the plot (the overlay layer
+/// covers exactly the plot's pixels, which clips as the plot's mask would).
+fn kept_items(s: &ViewState, g: &PlotGeometry) -> Vec<Item> {
+    let mut p = g.panel();
+    add_kept_overlay(s, &mut p);
+    let mut items = Vec::new();
+    data_items(&p, &g.rect, SIMPLIFY_PT, &mut items);
+    label_items(&p, &g.rect, &[], &mut items);
+    for item in &mut items {
+        if let Item::Path { clip, .. } = item {
+            *clip = None;
+        }
+    }
+    items
+}
+
+/// The pointer overlay of `s` as page items in the plot `g`, clipped to it.
+fn pointer_items(s: &ViewState, g: &PlotGeometry) -> Vec<Item> {
+    let mut p = g.panel();
+    add_pointer_overlay(s, &mut p);
+    let mut items = Vec::new();
+    data_items(&p, &g.rect, SIMPLIFY_PT, &mut items);
+    items
+}
+
+fn no_frame() -> fanmark_core::Error {
+    fanmark_core::Error::invalid("viewer", "cannot allocate the frame")
+}
+
+/// Renders states to pixels, keeping the last heat map, base layer and overlay layer so that
+/// a frame redraws only what its state changed.
 #[derive(Default)]
 pub struct Renderer {
     layer: Option<(LayerKey, (u32, u32), Vec<u8>)>,
     heat: Option<(LayerKey, HeatMap)>,
+    base: Option<Base>,
+    overlay: Option<Overlay>,
     /// Heat-map layers computed (for checks and benchmarks).
     pub layers_made: usize,
+    /// Overlay layers drawn (for checks and benchmarks).
+    pub overlays_made: usize,
 }
 
 /// A rendered frame.
@@ -585,6 +788,18 @@ pub struct Rendered {
     pub pixmap: Pixmap,
     /// Plot area of the map panel, px.
     pub plot: Option<PlotArea>,
+}
+
+/// How a frame may reuse the kept overlay.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Reuse {
+    /// Only when it was drawn for exactly this state (every settled frame).
+    Exact,
+    /// Also when only the viewport moved without changing its size: the last heat map and
+    /// overlay are shown moved by the pan, the axes as they were (an interim frame while a
+    /// drag goes on; what comes into view and the new ticks appear when the drag pauses and a
+    /// settled frame is drawn).
+    Shifted,
 }
 
 impl Renderer {
@@ -620,58 +835,117 @@ impl Renderer {
 
     /// Render the state into a `w`×`h` px image: figure, status line, help overlay.
     pub fn render(&mut self, s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
-        let status = (STATUS_PX * s.dpi_scale).round() as u32;
-        let fh = h.saturating_sub(status).max(50);
-        let plot_w = (s.plot.x1 - s.plot.x0).max(2.0) as usize;
-        let plot_h = (s.plot.y1 - s.plot.y0).max(2.0) as usize;
-        let key = LayerKey {
-            frame: s.frame,
-            channel: s.channel,
-            palette: s.palette,
-            scale: s.scale,
-            clip_pct: s.clip_pct,
-            view: s.view,
-            size: (plot_w as u32, plot_h as u32),
+        self.render_with(s, w, h, Reuse::Exact)
+    }
+
+    /// Render the state, reusing the kept overlay as `reuse` allows.
+    pub fn render_with(&mut self, s: &ViewState, w: u32, h: u32, reuse: Reuse) -> Result<Rendered> {
+        let base_key = BaseKey {
+            heat: heat_key_of(s),
+            window: (w, h),
+            dpi_scale: s.dpi_scale,
+            cut: cut_of(s),
         };
-        if !matches!(&self.heat, Some((k, _)) if *k == key) {
-            self.heat = Some((key.clone(), heat_of(s, plot_w.min(4096), plot_h.min(4096))));
+        // An interim frame may show the last base with its plot moved by the pan.
+        let base_shift = self.base.as_ref().and_then(|b| {
+            let g = b.plot.as_ref()?;
+            let mut moved = base_key.clone();
+            moved.heat.view = b.key.heat.view;
+            (reuse == Reuse::Shifted && b.key != base_key && b.key == moved)
+                .then(|| view_shift(&b.key.heat.view, &s.view, g))
+                .flatten()
+        });
+        if base_shift.is_none() && !matches!(&self.base, Some(b) if b.key == base_key) {
+            let _ = self.heat_key(s);
+            self.base = Some(self.make_base(s, w, h, base_key)?);
         }
-        let full_heat = match &self.heat {
-            Some((_, h)) => h,
-            None => unreachable!("the heat map was just stored"),
+        let Some(base) = &self.base else {
+            unreachable!("the base layer was just stored")
+        };
+        let mut pm = base.pixmap.clone();
+        if let (Some(d), Some(g)) = (base_shift, &base.plot) {
+            shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
+        }
+        if let Some(g) = &base.plot {
+            let content = OverlayContent {
+                frame: s.frame,
+                overlays: s.overlays.clone(),
+                work: s.work.clone(),
+                data: Arc::as_ptr(&s.data) as usize,
+                lines: Arc::as_ptr(&s.lines) as usize,
+                rect: g.rect,
+                scale: g.scale,
+                pixels: g.pixels,
+            };
+            let shift = self.overlay.as_ref().and_then(|o| {
+                if o.content != content {
+                    return None;
+                }
+                if o.view == s.view {
+                    return Some((0, 0));
+                }
+                (reuse == Reuse::Shifted)
+                    .then(|| view_shift(&o.view, &s.view, g))
+                    .flatten()
+            });
+            let shift = match shift {
+                Some(d) => d,
+                None => {
+                    let items = kept_items(s, g);
+                    let bands = rayon::current_num_threads().clamp(2, 8);
+                    let layer = OverlayLayer::draw(&items, g.scale, g.pixels, bands)
+                        .ok_or_else(no_frame)?;
+                    self.overlays_made += 1;
+                    self.overlay = Some(Overlay {
+                        content,
+                        view: s.view,
+                        layer,
+                    });
+                    (0, 0)
+                }
+            };
+            if let Some(o) = &self.overlay {
+                o.layer.composite(&mut pm, shift, g.pixels);
+            }
+            let mut masks = Vec::new();
+            if let Some(clip) = &base.clip {
+                masks.push((g.rect, clip.clone()));
+            }
+            for item in &pointer_items(s, g) {
+                draw_item(&mut pm, item, g.scale, (0.0, 0.0), &mut masks);
+            }
+            if let Some(f) = &base.frame {
+                draw_item(&mut pm, f, g.scale, (0.0, 0.0), &mut masks);
+            }
+        }
+        let plot = base.plot.map(|g| g.area());
+        finish(&mut pm, s, plot);
+        Ok(Rendered { pixmap: pm, plot })
+    }
+
+    /// Make sure the heat-map samples of `s` are kept; their key.
+    fn heat_key(&mut self, s: &ViewState) -> LayerKey {
+        let key = heat_key_of(s);
+        if !matches!(&self.heat, Some((k, _)) if *k == key) {
+            let (w, h) = (key.size.0 as usize, key.size.1 as usize);
+            self.heat = Some((key.clone(), heat_of(s, w.min(4096), h.min(4096))));
+        }
+        key
+    }
+
+    fn make_base(&mut self, s: &ViewState, w: u32, h: u32, key: BaseKey) -> Result<Base> {
+        let Some((_, full_heat)) = &self.heat else {
+            unreachable!("the heat map is stored before the base")
         };
         // The figure carries a stand-in with the same colours, range and extent (all the layout
         // needs); the layer itself is drawn from the full samples, so no frame copies them.
-        let heat = light_heat(full_heat);
-        let dpi = SCREEN_DPI * s.dpi_scale;
-        let mm = |px: u32| px as f64 / dpi * 25.4;
-        let mut fig = Figure::new(mm(w.max(50)), mm(fh));
-        fig.dpi = dpi;
-        fig.font_pt = 9.0;
-        fig.panels.push(map_panel(s, Some(heat)));
-        if let Some(p) = cut_of(s).as_ref().and_then(cut_panel) {
-            fig.columns = 2;
-            fig.panels.push(p);
-        }
-        let list = layout(&fig)?;
-        let scale = fig.pixel_size().0 as f64 / list.width;
-        let plot = list.items.iter().find_map(|i| match i {
-            Item::HeatMap { panel: 0, rect } => {
-                let (x0, y0, x1, y1) = pixel_rect(rect, scale);
-                Some(PlotArea {
-                    x0: x0 as f64,
-                    y0: y0 as f64,
-                    x1: x1 as f64,
-                    y1: y1 as f64,
-                })
-            }
-            _ => None,
-        });
+        let c = chrome(s, w, h, light_heat(full_heat), key.cut.as_ref())?;
         let cache = &mut self.layer;
         let made = &mut self.layers_made;
+        let heat_key = &key.heat;
         let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Vec<u8> {
             if let Some((k, size, img)) = cache.as_ref() {
-                if *k == key && *size == (pw, ph) {
+                if k == heat_key && *size == (pw, ph) {
                     return img.clone();
                 }
             }
@@ -680,62 +954,169 @@ impl Renderer {
             }
             let img = heatmap_layer(full_heat, m, p.x_axis.range, p.y_axis.range, pw, ph);
             *made += 1;
-            *cache = Some((key.clone(), (pw, ph), img.clone()));
+            *cache = Some((heat_key.clone(), (pw, ph), img.clone()));
             img
         };
-        let fpm = draw_list_with(&fig, &list, &mut source)?;
-        let mut pm = Pixmap::new(w.max(1), h.max(1))
-            .ok_or_else(|| fanmark_core::Error::invalid("viewer", "cannot allocate the frame"))?;
-        pm.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
-        pm.draw_pixmap(
-            0,
-            0,
-            fpm.as_ref(),
-            &tiny_skia::PixmapPaint::default(),
-            tiny_skia::Transform::identity(),
-            None,
-        );
-        let px = (12.0 * s.dpi_scale) as f32;
-        let base = h as f64 - 6.0 * s.dpi_scale;
-        draw_string(
-            &mut pm,
-            &status_text(s),
-            6.0 * s.dpi_scale,
-            base,
-            px,
-            [0, 0, 0],
-        );
-        match &s.mode {
-            Mode::Help => draw_help(&mut pm, s.dpi_scale),
-            Mode::Typing { text, purpose } => {
-                let what = match purpose {
-                    super::state::TypingPurpose::NewLabel => "new label t s",
-                    super::state::TypingPurpose::Rename => "new text",
-                };
-                fill_rect(
-                    &mut pm,
-                    0,
-                    0,
-                    w,
-                    (26.0 * s.dpi_scale) as u32,
-                    [255, 255, 200],
-                    240,
-                );
-                draw_string(
-                    &mut pm,
-                    &format!("{what}: {text}▏  (Enter: done, Esc: cancel)"),
-                    8.0 * s.dpi_scale,
-                    18.0 * s.dpi_scale,
-                    px,
-                    [0, 0, 0],
-                );
-            }
-            Mode::Normal => {}
+        let fpm = draw_list_with(&c.fig, &c.list, &mut source)?;
+        let mut pixmap = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
+        pixmap.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
+        copy_opaque(&mut pixmap, &fpm);
+        let clip = c.plot.map(|g| {
+            clip_mask(
+                &g.rect,
+                g.scale,
+                (0.0, 0.0),
+                pixmap.width(),
+                pixmap.height(),
+            )
+        });
+        Ok(Base {
+            key,
+            pixmap,
+            plot: c.plot,
+            frame: c.frame,
+            clip,
+        })
+    }
+}
+
+/// Colour of the plot where an interim frame has no heat map yet (as missing data).
+const MISSING_RGBA: [u8; 4] = [40, 40, 40, 255];
+
+/// Everything the heat-map layer of `s` depends on.
+fn heat_key_of(s: &ViewState) -> LayerKey {
+    let plot_w = (s.plot.x1 - s.plot.x0).max(2.0) as usize;
+    let plot_h = (s.plot.y1 - s.plot.y0).max(2.0) as usize;
+    LayerKey {
+        frame: s.frame,
+        channel: s.channel,
+        palette: s.palette,
+        scale: s.scale,
+        clip_pct: s.clip_pct,
+        view: s.view,
+        size: (plot_w as u32, plot_h as u32),
+    }
+}
+
+/// Fill the pixel rectangle `r` of `dst` with the same rectangle of `src` moved by `d` px;
+/// where the moved picture does not reach, `fill`.
+fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64), fill: [u8; 4]) {
+    let (w, h) = (dst.width() as i64, dst.height() as i64);
+    let (x0, y0) = (r.0.max(0), r.1.max(0));
+    let (x1, y1) = (r.2.min(w), r.3.min(h));
+    let stride = w as usize * 4;
+    let sd = src.data();
+    for (y, row) in dst.data_mut().chunks_exact_mut(stride).enumerate() {
+        let y = y as i64;
+        if y < y0 || y >= y1 {
+            continue;
         }
-        if !s.readings.is_empty() || s.fit.is_some() {
-            draw_readings(&mut pm, s, plot);
+        let sy = y - d.1;
+        for x in x0..x1 {
+            let sx = x - d.0;
+            let px = if sy >= y0 && sy < y1 && sx >= x0 && sx < x1 {
+                let i = (sy as usize * stride) + sx as usize * 4;
+                [sd[i], sd[i + 1], sd[i + 2], sd[i + 3]]
+            } else {
+                fill
+            };
+            row[x as usize * 4..x as usize * 4 + 4].copy_from_slice(&px);
         }
-        Ok(Rendered { pixmap: pm, plot })
+    }
+}
+
+/// Whole window pixels the content moves by when the view goes from `old` to `new` of the same
+/// size in the plot `g`; `None` when the size changed (a zoom).
+fn view_shift(old: &Viewport, new: &Viewport, g: &PlotGeometry) -> Option<(i64, i64)> {
+    let (wx, wy) = (old.x1 - old.x0, old.y1 - old.y0);
+    let same = |a: f64, b: f64| (a - b).abs() <= 1e-9 * a.abs().max(b.abs());
+    if !same(wx, new.x1 - new.x0) || !same(wy, new.y1 - new.y0) {
+        return None;
+    }
+    let px = g.rect.width() * g.scale * (old.x0 - new.x0) / wx;
+    let py = g.rect.height() * g.scale * (new.y0 - old.y0) / wy;
+    (px.is_finite() && py.is_finite()).then(|| (px.round() as i64, py.round() as i64))
+}
+
+/// The whole frame of `s` drawn in one pass into one pixmap, without layers or caches: every
+/// item straight onto the picture in the order the layered [`Renderer`] composites them. The
+/// reference the cached frames are checked against.
+pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
+    let plot_w = (s.plot.x1 - s.plot.x0).max(2.0) as usize;
+    let plot_h = (s.plot.y1 - s.plot.y0).max(2.0) as usize;
+    let heat = heat_of(s, plot_w.min(4096), plot_h.min(4096));
+    let cut = cut_of(s);
+    let c = chrome(s, w, h, light_heat(&heat), cut.as_ref())?;
+    let fpm = draw_list_with(&c.fig, &c.list, &mut |p, m, pw, ph| {
+        heatmap_layer(&heat, m, p.x_axis.range, p.y_axis.range, pw, ph)
+    })?;
+    let mut pm = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
+    pm.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
+    copy_opaque(&mut pm, &fpm);
+    if let Some(g) = &c.plot {
+        let mut masks = Vec::new();
+        // The kept items drawn in place, then every pixel outside the plot put back: the clip.
+        let outside = pm.clone();
+        for item in &kept_items(s, g) {
+            draw_overlay_item(&mut pm, item, g.scale, (0.0, 0.0), g.pixels, &mut masks);
+        }
+        restore_outside(&mut pm, &outside, g.pixels);
+        for item in pointer_items(s, g).iter().chain(&c.frame) {
+            draw_item(&mut pm, item, g.scale, (0.0, 0.0), &mut masks);
+        }
+    }
+    let plot = c.plot.map(|g| g.area());
+    finish(&mut pm, s, plot);
+    Ok(Rendered { pixmap: pm, plot })
+}
+
+/// Copy back from `before` every pixel of `pm` outside the half-open pixel rectangle `r`.
+fn restore_outside(pm: &mut Pixmap, before: &Pixmap, r: PixelRect) {
+    let w = pm.width() as i64;
+    let src = before.data();
+    for (i, px) in pm.data_mut().chunks_exact_mut(4).enumerate() {
+        let (x, y) = (i as i64 % w, i as i64 / w);
+        if x < r.0 || x >= r.2 || y < r.1 || y >= r.3 {
+            px.copy_from_slice(&src[i * 4..i * 4 + 4]);
+        }
+    }
+}
+
+/// Draw the status line, the typing box or key map, and the readings box over the frame.
+fn finish(pm: &mut Pixmap, s: &ViewState, plot: Option<PlotArea>) {
+    let (w, h) = (pm.width(), pm.height());
+    let px = (12.0 * s.dpi_scale) as f32;
+    let base = h as f64 - 6.0 * s.dpi_scale;
+    draw_string(pm, &status_text(s), 6.0 * s.dpi_scale, base, px, [0, 0, 0]);
+    match &s.mode {
+        Mode::Help => draw_help(pm, s.dpi_scale),
+        Mode::Typing { text, purpose } => {
+            let what = match purpose {
+                super::state::TypingPurpose::NewLabel => "new label t s",
+                super::state::TypingPurpose::Rename => "new text",
+            };
+            fill_rect(
+                pm,
+                0,
+                0,
+                w,
+                (26.0 * s.dpi_scale) as u32,
+                [255, 255, 200],
+                240,
+            );
+            draw_string(
+                pm,
+                &format!("{what}: {text}▏  (Enter: done, Esc: cancel)"),
+                8.0 * s.dpi_scale,
+                18.0 * s.dpi_scale,
+                px,
+                [0, 0, 0],
+            );
+        }
+        Mode::Normal => {}
+    }
+    if !s.readings.is_empty() || s.fit.is_some() {
+        draw_readings(pm, s, plot);
     }
 }
 

@@ -100,21 +100,20 @@ impl Pyramid {
         let level = self.level_for(cells_per_pixel);
         let f = level.factor as f64;
         let off = (f - 1.0) / 2.0;
-        let rows: Vec<f64> = (0..height)
-            .into_par_iter()
-            .flat_map_iter(|r| {
-                (0..width).map(move |c| match at(c, r) {
-                    Some((fx, fy)) => {
-                        let (a, b) = ((fx - off) / f, (fy - off) / f);
-                        let (ny, nx) = level.values.dim();
-                        let a = a.clamp(0.0, (nx - 1) as f64);
-                        let b = b.clamp(0.0, (ny - 1) as f64);
-                        bilinear(&level.values, a, b)
+        let (ny, nx) = level.values.dim();
+        let mut rows = vec![f64::NAN; width * height];
+        // Rows are independent: each worker fills whole rows of the preallocated output.
+        rows.par_chunks_mut(width.max(1))
+            .enumerate()
+            .for_each(|(r, row)| {
+                for (c, out) in row.iter_mut().enumerate() {
+                    if let Some((fx, fy)) = at(c, r) {
+                        let a = ((fx - off) / f).clamp(0.0, (nx - 1) as f64);
+                        let b = ((fy - off) / f).clamp(0.0, (ny - 1) as f64);
+                        *out = bilinear(&level.values, a, b);
                     }
-                    None => f64::NAN,
-                })
-            })
-            .collect();
+                }
+            });
         Array2::from_shape_vec((height, width), rows).expect("width × height samples")
     }
 }

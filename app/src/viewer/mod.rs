@@ -6,6 +6,7 @@ pub mod data;
 pub mod draw;
 pub mod export;
 pub mod keys;
+pub mod layers;
 pub mod lod;
 pub mod project;
 pub mod state;

@@ -2,10 +2,10 @@
 //! with softbuffer; the effects the reducer asks for (save, export, quit) are carried out here,
 //! and the project is autosaved a moment after each change and on close.
 
-use super::draw::{cut_csv, cut_of, export_figure, Renderer};
+use super::draw::{cut_csv, cut_of, export_figure, Renderer, Reuse};
 use super::keys::{action_for, Key};
 use super::project;
-use super::state::{Action, Button, Effect, ViewState};
+use super::state::{Action, Button, Drag, Effect, ViewState};
 use crate::figure::{self, Format};
 use anyhow::{anyhow, Context as _};
 use std::io::Write as _;
@@ -22,6 +22,9 @@ use winit::window::{Window, WindowId};
 
 /// Delay between the last change and the autosave.
 pub const AUTOSAVE_DELAY: Duration = Duration::from_millis(400);
+/// Pause in a drag after which the interim frames (cached layers moved) give way to a settled
+/// frame drawn afresh.
+pub const SETTLE_DELAY: Duration = Duration::from_millis(120);
 
 /// Where the viewer writes its files.
 #[derive(Clone, Debug)]
@@ -47,6 +50,8 @@ struct App {
     changed_at: Option<Instant>,
     presented: bool,
     error: Option<anyhow::Error>,
+    /// While a pan drag moves: when to draw the settled frame if the pointer stops.
+    settle_at: Option<Instant>,
 }
 
 fn key_of(k: &WKey) -> Option<Key> {
@@ -155,7 +160,12 @@ impl App {
                 scale: shown.window.scale_factor(),
             });
         }
-        let r = self.renderer.render(&self.state, w, h)?;
+        let panning = matches!(self.state.drag, Some(Drag::Pan { moved: true, .. }));
+        let reuse = match self.settle_at {
+            Some(t) if panning && Instant::now() < t => Reuse::Shifted,
+            _ => Reuse::Exact,
+        };
+        let r = self.renderer.render_with(&self.state, w, h, reuse)?;
         if let Some(p) = r.plot {
             if p != self.state.plot {
                 // The layout moved the plot (new tick labels): use it and draw again.
@@ -272,7 +282,10 @@ impl ApplicationHandler for App {
             }
             WindowEvent::ModifiersChanged(m) => self.mods = m.state(),
             WindowEvent::CursorMoved { position, .. } => {
-                self.dispatch(Action::Pointer(position.x, position.y), el)
+                self.dispatch(Action::Pointer(position.x, position.y), el);
+                if matches!(self.state.drag, Some(Drag::Pan { moved: true, .. })) {
+                    self.settle_at = Some(Instant::now() + SETTLE_DELAY);
+                }
             }
             WindowEvent::CursorLeft { .. } => self.dispatch(Action::PointerLeft, el),
             WindowEvent::MouseInput { state, button, .. } => {
@@ -321,8 +334,20 @@ impl ApplicationHandler for App {
                 }
             }
         }
-        match self.changed_at {
-            Some(t) => el.set_control_flow(ControlFlow::WaitUntil(t + AUTOSAVE_DELAY)),
+        if let Some(t) = self.settle_at {
+            if Instant::now() >= t {
+                self.settle_at = None;
+                if let Some(s) = &self.shown {
+                    s.window.request_redraw();
+                }
+            }
+        }
+        let wake = [self.changed_at.map(|t| t + AUTOSAVE_DELAY), self.settle_at]
+            .into_iter()
+            .flatten()
+            .min();
+        match wake {
+            Some(t) => el.set_control_flow(ControlFlow::WaitUntil(t)),
             None => el.set_control_flow(ControlFlow::Wait),
         }
     }
@@ -364,6 +389,7 @@ pub fn run(state: ViewState, out: Outputs) -> anyhow::Result<()> {
         changed_at: None,
         presented: false,
         error: None,
+        settle_at: None,
     };
     el.run_app(&mut app).context("running the window")?;
     match app.error {

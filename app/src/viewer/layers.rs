@@ -1,0 +1,263 @@
+//! Cached pixel layers of the viewer and their compositing: an overlay layer (the lines, markers
+//! and labels over the plot) drawn once in parallel horizontal bands, kept as premultiplied RGBA,
+//! (strokes no wider than a pixel as hairlines), and laid over the opaque base (heat map and axes) with a straight loop over pixels — shifted
+//! by a whole number of pixels while a drag is in progress.
+
+use crate::figure::draw::Item;
+use crate::figure::hairline::draw_hairline;
+use crate::figure::raster::draw_item;
+use rayon::prelude::*;
+use tiny_skia::Pixmap;
+
+/// A half-open rectangle of device pixels (x0, y0, x1, y1) of the window.
+pub type PixelRect = (i64, i64, i64, i64);
+
+/// An overlay drawn over the plot: premultiplied RGBA covering exactly the plot's pixel
+/// rectangle, stored as horizontal bands (one per worker) stacked top to bottom.
+pub struct OverlayLayer {
+    /// The window pixels the layer covers.
+    pub rect: PixelRect,
+    /// (first window row, pixels) of each band, top to bottom, together covering `rect`.
+    bands: Vec<(i64, Pixmap)>,
+}
+
+impl OverlayLayer {
+    /// Draw `items` (page pt at `scale` px/pt) into a transparent layer over `rect`, split into
+    /// `bands` horizontal bands drawn in parallel. The layer's edges clip the items exactly as a
+    /// clip mask on `rect` would. `None` for an empty rectangle.
+    pub fn draw(items: &[Item], scale: f64, rect: PixelRect, bands: usize) -> Option<OverlayLayer> {
+        let (x0, y0, x1, y1) = rect;
+        let (w, h) = (x1 - x0, y1 - y0);
+        if w <= 0 || h <= 0 {
+            return None;
+        }
+        let n = (bands.max(1) as i64).min(h);
+        let edges: Vec<i64> = (0..=n).map(|k| y0 + h * k / n).collect();
+        let bands: Option<Vec<(i64, Pixmap)>> = edges
+            .par_windows(2)
+            .map(|e| {
+                let mut pm = Pixmap::new(w as u32, (e[1] - e[0]) as u32)?;
+                let origin = (x0 as f64, e[0] as f64);
+                let mut masks = Vec::new();
+                let all = (0, 0, i64::MAX, i64::MAX);
+                for item in items {
+                    draw_overlay_item(&mut pm, item, scale, origin, all, &mut masks);
+                }
+                Some((e[0], pm))
+            })
+            .collect();
+        Some(OverlayLayer {
+            rect,
+            bands: bands?,
+        })
+    }
+
+    /// The layer's premultiplied pixel at window pixel (x, y), transparent outside.
+    pub fn pixel(&self, x: i64, y: i64) -> [u8; 4] {
+        let (x0, _, x1, _) = self.rect;
+        if x < x0 || x >= x1 {
+            return [0; 4];
+        }
+        for (top, pm) in &self.bands {
+            if y >= *top && y < top + pm.height() as i64 {
+                let i = (((y - top) * pm.width() as i64 + (x - x0)) * 4) as usize;
+                let d = pm.data();
+                return [d[i], d[i + 1], d[i + 2], d[i + 3]];
+            }
+        }
+        [0; 4]
+    }
+
+    /// One row of the layer (premultiplied RGBA, the layer's width) at window row `y`.
+    fn row(&self, y: i64) -> Option<&[u8]> {
+        self.bands.iter().find_map(|(top, pm)| {
+            let r = y - top;
+            if r < 0 || r >= pm.height() as i64 {
+                return None;
+            }
+            let stride = pm.width() as usize * 4;
+            Some(&pm.data()[r as usize * stride..(r as usize + 1) * stride])
+        })
+    }
+
+    /// Lay the layer over `dst` (premultiplied RGBA, a window-sized pixmap), moved by `shift`
+    /// window pixels, keeping only the pixels that land inside `clip`: source-over,
+    /// out = src + dst · (255 − src alpha) / 255 per channel, rows in parallel.
+    pub fn composite(&self, dst: &mut Pixmap, shift: (i64, i64), clip: PixelRect) {
+        let (dw, dh) = (dst.width() as i64, dst.height() as i64);
+        let (lx0, ly0, lx1, ly1) = self.rect;
+        // Window rectangle the moved layer covers, inside the clip and the window.
+        let cx0 = (lx0 + shift.0).max(clip.0).max(0);
+        let cx1 = (lx1 + shift.0).min(clip.2).min(dw);
+        let cy0 = (ly0 + shift.1).max(clip.1).max(0);
+        let cy1 = (ly1 + shift.1).min(clip.3).min(dh);
+        if cx0 >= cx1 || cy0 >= cy1 {
+            return;
+        }
+        let stride = dw as usize * 4;
+        dst.data_mut()
+            .par_chunks_mut(stride)
+            .enumerate()
+            .skip(cy0 as usize)
+            .take((cy1 - cy0) as usize)
+            .for_each(|(y, out)| {
+                let Some(src) = self.row(y as i64 - shift.1) else {
+                    return;
+                };
+                let sx0 = (cx0 - shift.0 - lx0) as usize;
+                let n = (cx1 - cx0) as usize;
+                let src = &src[sx0 * 4..(sx0 + n) * 4];
+                let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
+                over(out, src);
+            });
+    }
+}
+
+/// Draw one overlay item into `pm` whose pixel (0, 0) is device pixel `origin`: strokes no
+/// wider than a pixel as hairlines kept inside `clip` (pixels of `pm`; unclipped otherwise), the
+/// rest through the raster backend.
+pub fn draw_overlay_item(
+    pm: &mut Pixmap,
+    item: &Item,
+    scale: f64,
+    origin: (f64, f64),
+    clip: PixelRect,
+    masks: &mut Vec<(crate::figure::geom::Rect, tiny_skia::Mask)>,
+) {
+    match hairline_of(item, scale) {
+        Some((points, color, coverage, dash)) => {
+            let dev: Vec<(f64, f64)> = points
+                .iter()
+                .map(|p| (p.0 * scale - origin.0, p.1 * scale - origin.1))
+                .collect();
+            draw_hairline(pm, &dev, color, coverage, &dash, clip);
+        }
+        None => draw_item(pm, item, scale, origin, masks),
+    }
+}
+
+/// A hairline to draw: points (pt), colour, coverage, dash (device px).
+type Hairline<'a> = (&'a [(f64, f64)], [u8; 3], f64, Vec<f64>);
+
+/// The open stroke no wider than one device pixel that `item` is, as (points in pt, colour,
+/// coverage, dash in device px): drawn as a hairline (its clip rectangle, if any, is the
+/// caller's pixel clip).
+fn hairline_of(item: &Item, scale: f64) -> Option<Hairline<'_>> {
+    match item {
+        Item::Path {
+            points,
+            closed: false,
+            fill: None,
+            stroke: Some(st),
+            ..
+        } if st.width * scale <= 1.0 => {
+            let w = st.width * scale;
+            let coverage = if w > 0.0 { w } else { 1.0 };
+            let dash = st.dash.iter().map(|d| d * scale).collect();
+            Some((points, st.color, coverage, dash))
+        }
+        _ => None,
+    }
+}
+
+/// Premultiplied source-over of `src` onto `dst`, both RGBA of the same length.
+fn over(dst: &mut [u8], src: &[u8]) {
+    for (d, s) in dst.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
+        match s[3] {
+            0 => {}
+            255 => d.copy_from_slice(s),
+            a => {
+                let k = 255 - a as u32;
+                for c in 0..4 {
+                    // Rounded x · k / 255 without a division.
+                    let t = d[c] as u32 * k + 128;
+                    d[c] = (s[c] as u32 + ((t + (t >> 8)) >> 8)).min(255) as u8;
+                }
+            }
+        }
+    }
+}
+
+/// Copy the opaque pixmap `src` into `dst` with its top-left corner at window pixel (0, 0).
+pub fn copy_opaque(dst: &mut Pixmap, src: &Pixmap) {
+    let (dw, sw) = (dst.width() as usize * 4, src.width() as usize * 4);
+    let n = dw.min(sw);
+    let rows = dst.height().min(src.height()) as usize;
+    let sd = src.data();
+    for (r, out) in dst.data_mut().chunks_exact_mut(dw).take(rows).enumerate() {
+        out[..n].copy_from_slice(&sd[r * sw..r * sw + n]);
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn over_matches_the_source_over_formula() {
+        // Source-over for premultiplied colour (Porter & Duff 1984): out = s + d·(1 − αs).
+        let src = [100u8, 50, 0, 128];
+        let dst = [200u8, 200, 200, 255];
+        let mut out = dst;
+        over(&mut out, &src);
+        for c in 0..4 {
+            let exact = src[c] as f64 + dst[c] as f64 * (255.0 - 128.0) / 255.0;
+            assert!((out[c] as f64 - exact).abs() <= 0.5 + 1e-9, "{out:?}");
+        }
+        let mut clear = dst;
+        over(&mut clear, &[0, 0, 0, 0]);
+        assert_eq!(clear, dst);
+        over(&mut clear, &[1, 2, 3, 255]);
+        assert_eq!(clear, [1, 2, 3, 255]);
+    }
+
+    #[test]
+    fn bands_together_equal_one_layer_and_shifting_moves_pixels() {
+        use crate::figure::draw::Stroke;
+        let items = vec![Item::Path {
+            points: vec![(1.0, 1.0), (30.0, 45.0), (5.0, 40.0)],
+            closed: false,
+            fill: None,
+            stroke: Some(Stroke {
+                color: [255, 0, 0],
+                width: 2.0,
+                dash: vec![3.0, 1.0],
+            }),
+            clip: None,
+        }];
+        let rect = (10, 20, 60, 90);
+        let one = OverlayLayer::draw(&items, 1.5, rect, 1).unwrap();
+        let four = OverlayLayer::draw(&items, 1.5, rect, 4).unwrap();
+        let mut drawn = 0;
+        for y in 20..90 {
+            for x in 10..60 {
+                let (a, b) = (one.pixel(x, y), four.pixel(x, y));
+                for c in 0..4 {
+                    assert!(a[c].abs_diff(b[c]) <= 1, "({x}, {y}): {a:?} vs {b:?}");
+                }
+                drawn += (a[3] > 0) as usize;
+            }
+        }
+        assert!(drawn > 50, "{drawn} pixels drawn");
+        let mut base = Pixmap::new(80, 100).unwrap();
+        base.fill(tiny_skia::Color::WHITE);
+        let mut moved = base.clone();
+        one.composite(&mut moved, (3, -2), (0, 0, 80, 100));
+        let mut still = base.clone();
+        one.composite(&mut still, (0, 0), (0, 0, 80, 100));
+        let px = |p: &Pixmap, x: u32, y: u32| p.pixel(x, y).unwrap();
+        for y in 22..88 {
+            for x in 10..57 {
+                assert_eq!(px(&still, x, y), px(&moved, x + 3, y - 2));
+            }
+        }
+        // A clip keeps the layer inside it.
+        let mut clipped = base.clone();
+        one.composite(&mut clipped, (0, 0), (0, 0, 30, 100));
+        for y in 0..100 {
+            for x in 30..80 {
+                assert_eq!(px(&clipped, x, y), px(&base, x, y));
+            }
+        }
+    }
+}
