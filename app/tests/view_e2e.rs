@@ -178,7 +178,7 @@ impl Viewer {
 
     /// Wait until a save has written a project for which `ok` holds; returns it.
     fn wait_saved(&mut self, path: &Path, what: &str, ok: impl Fn(&Project) -> bool) -> Project {
-        let end = Instant::now() + Duration::from_secs(20);
+        let end = Instant::now() + Duration::from_secs(60);
         loop {
             let secs = end
                 .saturating_duration_since(Instant::now())
