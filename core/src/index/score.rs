@@ -33,6 +33,10 @@ pub struct ScoreOptions {
     pub min_t: f64,
     /// Smallest number of rows in the seen run (also at least 4 % of the rows).
     pub min_rows: usize,
+    /// A candidate of complexity c must be seen over max(1, c × this) times the smallest
+    /// run: the complex families hold many more lines, so a chance alignment with a few rows
+    /// of some ridge is likelier among them and they need longer evidence.
+    pub rows_per_complexity: f64,
     /// Two detections closer than this many columns on average over their common rows explain
     /// the same ridge.
     pub merge_columns: f64,
@@ -41,10 +45,11 @@ pub struct ScoreOptions {
 impl Default for ScoreOptions {
     fn default() -> Self {
         ScoreOptions {
-            row_threshold: 3.0,
-            min_score: 4.0,
-            min_t: 3.5,
+            row_threshold: 1.5,
+            min_score: 2.5,
+            min_t: 2.0,
             min_rows: 4,
+            rows_per_complexity: 0.5,
             merge_columns: 1.6,
         }
     }
@@ -310,7 +315,10 @@ pub fn score_lines(
                 let (b0, b1) = (b[a], b[z - 1]);
                 ev.b_onset_t = Some(b0.min(b1));
                 ev.b_max_t = Some(b0.max(b1));
-                if v.len() < min_rows {
+                let need = (min_rows as f64
+                    * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
+                .ceil() as usize;
+                if v.len() < need {
                     ev.score = 0.0;
                 }
             }
