@@ -74,13 +74,13 @@ fn monolayer_device_calibration_and_states_over_seeds() {
 
 #[test]
 fn moire_device_is_indexed_with_n0() {
-    // Measured, not yet at the done-criteria: see the report. This checks what works now:
-    // the calibration chosen lies within 5 % and some Wannier states are found.
+    // Measured, not yet at the done-criteria for the states (see the table test); the
+    // calibration meets its criterion (α within 2 %) on this seed and Wannier states are found.
     let s = generate(&SynthConfig::varied(DeviceName::Tern, 6)).unwrap();
     let map = synthetic::synthesis_map(&s).unwrap();
     let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
     let da = rep.calibration.alpha_cm2_per_v / s.truth.alpha_cm2_per_v - 1.0;
-    assert!(da.abs() < 0.05, "α off by {:.2} %", 100.0 * da);
+    assert!(da.abs() < 0.02, "α off by {:.2} %", 100.0 * da);
     let m = rep.moire.expect("n₀ found");
     let dn = m.n0_cm2 / s.truth.n0_cm2.unwrap() - 1.0;
     assert!(dn.abs() < 0.03, "n₀ off by {:.2} %", 100.0 * dn);
@@ -414,40 +414,60 @@ fn brown_zak_fields_are_found_as_horizontal_features() {
 #[test]
 fn precision_recall_table_over_seeds_and_devices() {
     // The table of the report: every varied seed of both devices. The monolayer meets the
-    // done-criteria of precision on every seed; the moiré device is measured and its
-    // superlattice density checked where found (recall and precision there are not yet at
-    // the done-criteria).
-    eprintln!("device seed precision recall Δα/α ΔV_CNP(V)");
-    let mut wren_recall = Vec::new();
+    // done-criteria (P ≥ 0.9 on every seed, mean R ≥ 0.9). The moiré device is held to what
+    // it reaches now — precision near the criterion, recall about half — and to the
+    // calibration criteria (α within 2 %, V_CNP within 0.3 V, n₀ within 3 %) on four of its
+    // five seeds.
+    eprintln!("device seed precision recall Δα/α ΔV_CNP(V) Δn₀/n₀");
+    let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
+    let (mut wren_p, mut wren_r) = (Vec::new(), Vec::new());
     for seed in 1..=5 {
         let (p, rc, da, dv) = precision_recall(DeviceName::Wren, seed, Stack::Monolayer);
-        eprintln!("wren {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3}", 100.0 * da);
-        assert!(p >= 0.9, "wren seed {seed}: precision {p:.2}");
+        eprintln!("wren {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3} -", 100.0 * da);
+        assert!(p >= 0.95, "wren seed {seed}: precision {p:.2}");
+        assert!(rc >= 0.8, "wren seed {seed}: recall {rc:.2}");
         assert!(
             da.abs() < 0.02 && dv.abs() < 0.3,
             "wren seed {seed}: calibration"
         );
-        wren_recall.push(rc);
+        wren_p.push(p);
+        wren_r.push(rc);
     }
-    let mean = wren_recall.iter().sum::<f64>() / wren_recall.len() as f64;
-    assert!(mean >= 0.85, "wren recall {wren_recall:?}");
-    let mut n0_ok = 0;
+    assert!(mean(&wren_p) >= 0.95, "wren precision {wren_p:?}");
+    assert!(mean(&wren_r) >= 0.9, "wren recall {wren_r:?}");
+    let (mut tern_p, mut tern_r) = (Vec::new(), Vec::new());
+    let mut calibrated = 0;
     for seed in 6..=10 {
         let (p, rc, da, dv) = precision_recall(DeviceName::Tern, seed, Stack::MonolayerMoire);
-        eprintln!("tern {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3}", 100.0 * da);
         let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
         let map = synthetic::synthesis_map(&s).unwrap();
         let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
-        if let Some(m) = rep.moire {
-            // Done-criterion: n₀ within 3 % of the truth.
-            let dn = m.n0_cm2 / s.truth.n0_cm2.unwrap() - 1.0;
+        let dn = rep.moire.map(|m| m.n0_cm2 / s.truth.n0_cm2.unwrap() - 1.0);
+        eprintln!(
+            "tern {seed} {p:.2} {rc:.2} {:+.2}% {dv:+.3} {}",
+            100.0 * da,
+            dn.map_or("none".to_string(), |d| format!("{:+.2}%", 100.0 * d))
+        );
+        if let Some(d) = dn {
+            // Done-criterion: n₀ within 3 % of the truth whenever it is reported.
             assert!(
-                dn.abs() < 0.03,
+                d.abs() < 0.03,
                 "tern seed {seed}: n₀ off by {:.2} %",
-                100.0 * dn
+                100.0 * d
             );
-            n0_ok += 1;
         }
+        if da.abs() < 0.02 && dv.abs() < 0.3 && dn.is_some() {
+            calibrated += 1;
+        }
+        assert!(p >= 0.8, "tern seed {seed}: precision {p:.2}");
+        assert!(rc >= 0.3, "tern seed {seed}: recall {rc:.2}");
+        tern_p.push(p);
+        tern_r.push(rc);
     }
-    assert!(n0_ok >= 3, "n₀ found on {n0_ok} of 5 moiré seeds");
+    assert!(mean(&tern_p) >= 0.9, "tern precision {tern_p:?}");
+    assert!(mean(&tern_r) >= 0.45, "tern recall {tern_r:?}");
+    assert!(
+        calibrated >= 4,
+        "calibration criteria met on {calibrated} of 5 moiré seeds"
+    );
 }

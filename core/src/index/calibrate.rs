@@ -526,12 +526,30 @@ pub fn from_quantum_hall(
             }
         }
     }
-    // Least squares of V against X = ν(e/h)B over the assigned minima, twice.
-    let (mut vc, mut inv_alpha) = (vc0, 1.0 / alpha0);
+    fit_fan(&pts, &seq, vc0, 1.0 / alpha0, dx, f64::INFINITY)
+}
+
+/// Least squares of V against X = ν(e/h)B over the strong minima `pts` (V, B, weight), each
+/// assigned to the nearest member ν of the degenerate sequence `seq` for the current gate
+/// model, three times, starting from V_CNP = `vc0` and 1/α = `inv_alpha0`. Minima farther
+/// than `n_limit_m2` from charge neutrality in density are left out. The uncertainty is the
+/// jackknife over whole lines.
+fn fit_fan(
+    pts: &[(f64, f64, f64)],
+    seq: &[i64],
+    vc0: f64,
+    inv_alpha0: f64,
+    dx: f64,
+    n_limit_m2: f64,
+) -> Option<GateEstimate> {
+    let (mut vc, mut inv_alpha) = (vc0, inv_alpha0);
     let mut result = None;
     for _ in 0..3 {
         let (mut xs, mut ys, mut ws, mut lines) = (Vec::new(), Vec::new(), Vec::new(), Vec::new());
-        for &(v, b, w) in &pts {
+        for &(v, b, w) in pts {
+            if ((v - vc) / inv_alpha).abs() > n_limit_m2 {
+                continue;
+            }
             let nu = (v - vc) / (inv_alpha * E_OVER_H * b);
             let m = seq
                 .iter()
@@ -775,6 +793,40 @@ pub fn moire_density(
     })
 }
 
+/// Outer edge of the main Dirac cone's Landau fan in a moiré device, in units of n₀: beyond
+/// |n| ≈ 2n₀ the satellite cones' fans and the Hofstadter lines take over, so minima there
+/// are not main-fan states (1.5 leaves room for the crossover and for n₀'s uncertainty).
+pub const MAIN_CONE_LIMIT_N0: f64 = 1.5;
+
+/// Method (b) again, started from `start` and using only the minima inside the main cone,
+/// |n| < [`MAIN_CONE_LIMIT_N0`]·n₀ (`n0_m2` in m⁻²): in a moiré device the satellite fans'
+/// and minigaps' minima beyond it would otherwise be assigned to main-fan filling factors and
+/// bias α. None when the refit fails.
+pub fn refine_on_main_cone(
+    map: &Map,
+    minima: &[MinimumPoint],
+    stack: Stack,
+    start: &GateEstimate,
+    n0_m2: f64,
+) -> Option<GateEstimate> {
+    let pts = strong_points(map, minima, 0.4);
+    let x = map.x();
+    let dx = (x.max() - x.min()) / (x.len().max(2) - 1) as f64;
+    let vc0 = start.v_cnp_v?;
+    let alpha = start.alpha_cm2_per_v * 1e4;
+    if !(alpha > 0.0 && n0_m2 > 0.0) || pts.len() < 20 {
+        return None;
+    }
+    fit_fan(
+        &pts,
+        &stack.sequence(80),
+        vc0,
+        1.0 / alpha,
+        dx,
+        MAIN_CONE_LIMIT_N0 * n0_m2,
+    )
+}
+
 /// Methods (a) and (b) together: (b) alone first, (a) near its V_CNP, and (b) again with (a)
 /// as the referee of the scale when they disagree by more than 30 %; (c) when a dielectric is
 /// given. Returns the chosen calibration with every estimate.
@@ -793,10 +845,31 @@ pub fn calibrate_map(
             if let Some(eb) = b {
                 if (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3 {
                     notes.push(format!(
-                        "the quantum Hall fan gave α = {:.4e} cm⁻²/V, far from the Hall slope;                          it is not used",
+                        "the quantum Hall fan gave α = {:.4e} cm⁻²/V, far from the Hall slope; \
+                         it is not used",
                         eb.alpha_cm2_per_v
                     ));
                     b = None;
+                }
+            }
+        }
+    }
+    if stack.is_moire() {
+        if let Some(eb) = b {
+            if let Some(m) = moire_density(
+                map,
+                minima,
+                &eb.gate(0.0),
+                stack,
+                crate::moire::HBN_MISMATCH_DEFAULT,
+            ) {
+                if let Some(r) = refine_on_main_cone(map, minima, stack, &eb, m.n0_cm2 * 1e4) {
+                    notes.push(format!(
+                        "the fan was refitted inside the main cone (|n| < {MAIN_CONE_LIMIT_N0} n₀): \
+                         α {:.4e} → {:.4e} cm⁻²/V",
+                        eb.alpha_cm2_per_v, r.alpha_cm2_per_v
+                    ));
+                    b = Some(r);
                 }
             }
         }

@@ -61,32 +61,37 @@ pub struct GapMap {
     pub misalignment: f64,
 }
 
-fn quantile_sorted(v: &[f64], q: f64) -> f64 {
+/// The `q`-quantile (0…1, linear between neighbouring order statistics) of finite `v`, found
+/// by selection in O(len) instead of sorting; `v` is reordered. NaN when empty.
+fn quantile_select(v: &mut [f64], q: f64) -> f64 {
     if v.is_empty() {
         return f64::NAN;
     }
-    let pos = q * (v.len() - 1) as f64;
+    let pos = q.clamp(0.0, 1.0) * (v.len() - 1) as f64;
     let i = pos.floor() as usize;
     let f = pos - i as f64;
-    if i + 1 < v.len() {
-        v[i] * (1.0 - f) + v[i + 1] * f
+    let (_, &mut lo, right) = v.select_nth_unstable_by(i, f64::total_cmp);
+    if f > 0.0 && !right.is_empty() {
+        // The next order statistic is the smallest of the part above the i-th.
+        let hi = right.iter().copied().fold(f64::INFINITY, f64::min);
+        lo * (1.0 - f) + hi * f
     } else {
-        v[i]
+        lo
     }
 }
 
 /// Median of the finite values (NaN when none).
 pub(crate) fn median(values: impl IntoIterator<Item = f64>) -> f64 {
     let mut v: Vec<f64> = values.into_iter().filter(|x| x.is_finite()).collect();
-    v.sort_by(f64::total_cmp);
-    quantile_sorted(&v, 0.5)
+    quantile_select(&mut v, 0.5)
 }
 
 /// Robust standard deviation 1.4826·MAD of the finite values (NaN when none).
 pub(crate) fn robust_sigma(values: impl IntoIterator<Item = f64>) -> f64 {
-    let v: Vec<f64> = values.into_iter().filter(|x| x.is_finite()).collect();
-    let m = median(v.iter().copied());
-    1.4826 * median(v.iter().map(|x| (x - m).abs()))
+    let mut v: Vec<f64> = values.into_iter().filter(|x| x.is_finite()).collect();
+    let m = quantile_select(&mut v, 0.5);
+    v.iter_mut().for_each(|x| *x = (*x - m).abs());
+    1.4826 * quantile_select(&mut v, 0.5)
 }
 
 /// Running `q`-quantile of `row` over a window of `w` points, evaluated every `w/4` points and
@@ -104,8 +109,7 @@ fn running_quantile(row: &[f64], w: usize, q: f64) -> Vec<f64> {
         buf.clear();
         buf.extend(row[lo..hi].iter().copied().filter(|x| x.is_finite()));
         if !buf.is_empty() {
-            buf.sort_by(f64::total_cmp);
-            knots.push((c, quantile_sorted(&buf, q)));
+            knots.push((c, quantile_select(&mut buf, q)));
         }
         if c + 1 >= n {
             break;
@@ -161,9 +165,9 @@ fn rxx_floor(rxx: &Array2<f64>) -> f64 {
     if abs.is_empty() {
         return 1e-9;
     }
-    abs.sort_by(f64::total_cmp);
-    let cut = quantile_sorted(&abs, 0.1);
-    let max = abs[abs.len() - 1];
+    let max = abs.iter().copied().fold(0.0, f64::max);
+    let typical = quantile_select(&mut abs, 0.5);
+    let cut = quantile_select(&mut abs, 0.1);
     let mut diffs = Vec::new();
     for row in rxx.axis_iter(NdAxis(0)) {
         let r = row
@@ -178,7 +182,6 @@ fn rxx_floor(rxx: &Array2<f64>) -> f64 {
     }
     let s = robust_sigma(diffs) / 1.5f64.sqrt();
     let floor = 3.0 * if s.is_finite() { s } else { 0.0 };
-    let typical = quantile_sorted(&abs, 0.5);
     floor.max(5e-3 * typical).max(1e-9 * max).max(1e-12)
 }
 
@@ -595,5 +598,48 @@ impl FeatureIndex {
             .into_iter()
             .map(|(d2, &i)| (d2.sqrt(), &self.points[i]))
             .collect())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Linear-interpolated quantile of sorted values (the textbook definition the selection
+    /// must reproduce).
+    fn sorted_quantile(v: &[f64], q: f64) -> f64 {
+        let mut s = v.to_vec();
+        s.sort_by(f64::total_cmp);
+        let pos = q * (s.len() - 1) as f64;
+        let i = pos.floor() as usize;
+        let f = pos - i as f64;
+        if i + 1 < s.len() {
+            s[i] * (1.0 - f) + s[i + 1] * f
+        } else {
+            s[i]
+        }
+    }
+
+    #[test]
+    fn selected_quantiles_equal_sorted_ones() {
+        // A scrambled sequence with repeats: x_k = (37 k mod 101) / 7, k = 0..250.
+        let v: Vec<f64> = (0..250).map(|k| ((37 * k) % 101) as f64 / 7.0).collect();
+        for q in [0.0, 0.1, 0.25, 0.5, 0.75, 0.9, 1.0] {
+            for len in [1, 2, 3, 10, 57, 250] {
+                let mut w = v[..len].to_vec();
+                let want = sorted_quantile(&v[..len], q);
+                let got = quantile_select(&mut w, q);
+                assert!(
+                    (got - want).abs() < 1e-12,
+                    "q {q} len {len}: {got} vs {want}"
+                );
+            }
+        }
+        assert!(quantile_select(&mut [], 0.5).is_nan());
+        // Median and MAD of 1..=9: 5 and 2 (|x − 5| = 0,1,1,2,2,3,3,4,4).
+        let m: Vec<f64> = (1..=9).map(|k| k as f64).collect();
+        assert_eq!(median(m.iter().copied()), 5.0);
+        assert!((robust_sigma(m.iter().copied()) - 1.4826 * 2.0).abs() < 1e-12);
+        assert!(median([f64::NAN, 3.0, 1.0]) == 2.0);
     }
 }

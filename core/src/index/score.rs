@@ -4,9 +4,11 @@
 //!
 //! For candidate (t, s) the line n(B) = t(e/h)B + s·n₀ is followed row by row through the map
 //! in (V_g, B) with the gate model V = V_CNP + n/α. In each row the contrast is
-//! c = g(line) − ½[g(line − δ) + g(line + δ)], maximised over side offsets δ from 1.5 columns
-//! up to half the distance to the nearest candidate line of no greater complexity (so a complex
-//! candidate lying inside the broad plateau of a simpler state has no contrast). The contrast is
+//! c = g(line) − ½[g(line − δ) + g(line + δ)] where g(line) exceeds both sides (0 otherwise),
+//! maximised over side offsets δ from 1.5 columns up to half the distance to the nearest
+//! candidate line of no greater complexity (so a complex candidate lying inside the broad
+//! plateau of a simpler state has no contrast). Both sides must lie inside the map: a line
+//! running along the map's edge, or down the flank of a broader feature, is not a ridge. The contrast is
 //! smoothed over a few rows; the line is seen over the longest run of rows where the smoothed
 //! contrast exceeds the threshold, its lowest field is the onset, and the score is the mean
 //! contrast over that run (row-noise units) with a t-statistic against its row-to-row scatter.
@@ -31,6 +33,10 @@ pub struct ScoreOptions {
     pub min_t: f64,
     /// Smallest number of rows in the seen run (also at least 4 % of the rows).
     pub min_rows: usize,
+    /// A candidate of complexity c must be seen over max(1, c × this) times the smallest
+    /// run: the complex families hold many more lines, so a chance alignment with a few rows
+    /// of some ridge is likelier among them and they need longer evidence.
+    pub rows_per_complexity: f64,
     /// Two detections closer than this many columns on average over their common rows explain
     /// the same ridge.
     pub merge_columns: f64,
@@ -39,10 +45,11 @@ pub struct ScoreOptions {
 impl Default for ScoreOptions {
     fn default() -> Self {
         ScoreOptions {
-            row_threshold: 3.0,
-            min_score: 4.0,
-            min_t: 3.5,
+            row_threshold: 1.5,
+            min_score: 2.5,
+            min_t: 2.0,
             min_rows: 4,
+            rows_per_complexity: 0.5,
             merge_columns: 1.6,
         }
     }
@@ -231,14 +238,15 @@ pub fn score_lines(
                 let mut d = 1.5;
                 loop {
                     let (l, r) = (sample(row, f - d), sample(row, f + d));
-                    let side = match (l.is_finite(), r.is_finite()) {
-                        (true, true) => 0.5 * (l + r),
-                        (true, false) => l,
-                        (false, true) => r,
-                        _ => f64::NAN,
-                    };
-                    if side.is_finite() {
-                        best = best.max(gc - side);
+                    // A ridge needs lower ground on both sides: a line at the map's edge or on
+                    // the flank of a broader feature (not above either side) shows nothing.
+                    if l.is_finite() && r.is_finite() {
+                        let c = if gc > l.max(r) {
+                            gc - 0.5 * (l + r)
+                        } else {
+                            0.0
+                        };
+                        best = best.max(c);
                     }
                     if d >= dhi {
                         break;
@@ -250,7 +258,15 @@ pub fn score_lines(
                     inside += 1;
                 }
             }
-            // Smoothed contrast over `win` rows on each side.
+            // Smoothed contrast: the mean of the finite contrasts within `win` rows on each
+            // side, from running sums (O(rows)).
+            let mut sum = vec![0.0; rows + 1];
+            let mut count = vec![0usize; rows + 1];
+            for i in 0..rows {
+                let finite = contrast[i].is_finite();
+                sum[i + 1] = sum[i] + if finite { contrast[i] } else { 0.0 };
+                count[i + 1] = count[i] + usize::from(finite);
+            }
             let smooth: Vec<f64> = (0..rows)
                 .map(|i| {
                     if !contrast[i].is_finite() {
@@ -258,12 +274,7 @@ pub fn score_lines(
                     }
                     let lo = i.saturating_sub(win);
                     let hi = (i + win + 1).min(rows);
-                    let v: Vec<f64> = contrast[lo..hi]
-                        .iter()
-                        .copied()
-                        .filter(|x| x.is_finite())
-                        .collect();
-                    v.iter().sum::<f64>() / v.len() as f64
+                    (sum[hi] - sum[lo]) / (count[hi] - count[lo]) as f64
                 })
                 .collect();
             // Longest run (by summed contrast) of rows above the threshold.
@@ -304,7 +315,10 @@ pub fn score_lines(
                 let (b0, b1) = (b[a], b[z - 1]);
                 ev.b_onset_t = Some(b0.min(b1));
                 ev.b_max_t = Some(b0.max(b1));
-                if v.len() < min_rows {
+                let need = (min_rows as f64
+                    * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
+                .ceil() as usize;
+                if v.len() < need {
                     ev.score = 0.0;
                 }
             }
@@ -377,4 +391,57 @@ pub fn suppress_neighbours(
         }
     }
     kept
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::map::{Axis, Quantity};
+
+    fn cand(family: Family, t: i64, s: i64) -> Candidate {
+        let line = Line::gap(family, "test", Rational::integer(t), Rational::integer(s));
+        Candidate::from_line(line).expect("a gap line")
+    }
+
+    #[test]
+    fn a_ridge_is_seen_and_a_flank_at_the_map_edge_is_not() {
+        // Gate −8.2…21.7 V in 0.1 V steps, field 1…13 T; n = 10¹⁵ m⁻² V⁻¹ · V, n₀ = 4×10¹⁵ m⁻².
+        let (rows, cols) = (60, 300);
+        let x = Axis::uniform("vg", Quantity::Gate, -8.2, 0.1, cols).unwrap();
+        let y = Axis::uniform("b", Quantity::Field, 1.0, 12.0 / (rows - 1) as f64, rows).unwrap();
+        let map = Map::new(x, y);
+        let gate = SingleGate {
+            alpha_m2_per_v: 1e15,
+            v_cnp: 0.0,
+        };
+        let n0 = 4e15;
+        let nu2 = cand(Family::Integer, 2, 0);
+        // (t, s) = (0, −2) lies at V = −8 V, two columns from the map's left edge, on a steep
+        // flank that falls away from the edge: higher on one side, lower on the other.
+        let edge = cand(Family::Wannier, 0, -2);
+        let b = map.y().values().to_vec();
+        let g = Array2::from_shape_fn((rows, cols), |(i, j)| {
+            // The ν = 2 ridge: V = 2(e/h)B/α, in columns from −8.2 V.
+            let c2 = (2.0 * E_OVER_H * b[i] / 1e15 + 8.2) / 0.1;
+            let ridge = 40.0 * (-((j as f64 - c2) / 2.0).powi(2)).exp();
+            let flank = (100.0 - 5.0 * j as f64).max(0.0);
+            // Small deterministic ripple, ±0.3.
+            let ripple = 0.3 * ((7 * i + 13 * j) as f64).sin();
+            ridge + flank + ripple
+        });
+        let cands = vec![nu2, edge];
+        let o = ScoreOptions::default();
+        let ev = score_lines(&map, &g, &gate, Some(n0), &cands, &o);
+        assert!(is_detected(&ev[0], &o), "ridge missed: {:?}", ev[0]);
+        assert!(ev[0].score > 20.0, "{:?}", ev[0]);
+        assert!(
+            !is_detected(&ev[1], &o),
+            "flank taken for a line: {:?}",
+            ev[1]
+        );
+        assert_eq!(
+            suppress_neighbours(&map, &gate, Some(n0), &cands, &ev, &o),
+            vec![0]
+        );
+    }
 }

@@ -91,11 +91,18 @@ impl Stack {
         }
     }
 
-    /// Candidate lines of the stack's families.
+    /// Candidate lines of the stack's families. On a moiré stack a line of slope t = 0 is a
+    /// gap already open at zero field; in the single-particle Wannier diagram of graphene on
+    /// hBN those are charge neutrality and the full fillings s = ±4 of the first minibands,
+    /// so other (0, s) lines (which would be correlated insulators, not expected in this
+    /// stack) are not searched: at low field they would only pick up the resistance bump
+    /// where the Hall sign reverses near |s| ≈ 2.
     pub fn candidates(self) -> Result<Vec<Candidate>> {
+        let full = Rational::integer(4);
         Ok(generate(&self.family_spec(), None)?
             .into_iter()
             .filter_map(Candidate::from_line)
+            .filter(|c| !(c.t.is_zero() && !c.s.is_zero() && c.s.abs() != full))
             .collect())
     }
 }
@@ -112,5 +119,29 @@ impl FromStr for Stack {
                 format!("`{s}`: expected monolayer, bilayer or monolayer-moire"),
             )),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn moire_zero_slope_candidates_are_only_the_zero_field_band_gaps() {
+        let c = Stack::MonolayerMoire.candidates().unwrap();
+        let zero_slope: Vec<Rational> = c.iter().filter(|x| x.t.is_zero()).map(|x| x.s).collect();
+        for s in [-4, 4] {
+            assert!(
+                zero_slope.contains(&Rational::integer(s)),
+                "(0, {s}) missing"
+            );
+        }
+        assert!(zero_slope
+            .iter()
+            .all(|s| s.is_zero() || s.abs() == Rational::integer(4)));
+        // Sloped Wannier lines through s = ±2 stay.
+        assert!(c
+            .iter()
+            .any(|x| x.t == Rational::integer(-1) && x.s == Rational::integer(2)));
     }
 }

@@ -58,7 +58,8 @@ pub struct TruthState {
     #[serde(rename = "b_max_T")]
     pub b_max_t: Option<f64>,
     /// True if the state is visible in the map: resolvable in at least
-    /// `MIN_RESOLVED_ROWS` (4) of the map's field rows. A gap line is resolvable at a field
+    /// `MIN_RESOLVED_ROWS` (4) of the map's field rows (the fields as measured, warped steps
+    /// included). A gap line is resolvable at a field
     /// when its line lies inside the gate range and its own domain, its plateau spans at least
     /// one gate step, its R_xx dip (or peak) exceeds 3× the noise, and no other state with
     /// such a dip at least as deep (relative to R_xx) lies within two gate steps in density
@@ -204,13 +205,13 @@ fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>
             }
         }
     }
-    let rows = cfg.field_points.max(1);
-    for i in 0..rows {
-        let b = if rows > 1 {
-            b_lo + (b_hi - b_lo) * i as f64 / (rows - 1) as f64
-        } else {
-            b_lo
-        };
+    // The map's own field rows, as measured (non-uniform when the field steps are warped).
+    let warp = cfg
+        .flaws
+        .field_step_warp
+        .on
+        .then_some(cfg.flaws.field_step_warp.size);
+    for b in super::flaws::field_values(b_lo, b_hi, cfg.field_points.max(1), warp) {
         let dips = significant_dips(model, cfg, b);
         for (j, o) in out.iter_mut().enumerate() {
             if resolvable(model, j, b, &dips, gate_step_density) {
