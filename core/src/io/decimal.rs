@@ -155,7 +155,7 @@ mod tests {
         // Reference: Rust's standard library parser, which is correctly rounded for every input.
         #[test]
         fn agrees_bit_for_bit_with_the_standard_parser(
-            m in 0u64..10_000_000_000u64, point in 0usize..11, e in -30i32..30, neg: bool,
+            m in 0u64..100_000_000_000_000_000u64, point in 0usize..19, e in -30i32..30, neg: bool,
             with_exp: bool,
         ) {
             let digits = m.to_string();
