@@ -23,6 +23,7 @@ use fanmark_core::rational::Rational;
 use fanmark_core::reframe::{resample, FrameGrid};
 use fanmark_core::{Error, Result};
 use ndarray::{s, Array2};
+use rayon::prelude::*;
 use std::sync::Arc;
 
 /// SI density per displayed density unit (10¹² cm⁻² = 10¹⁶ m⁻²).
@@ -180,8 +181,60 @@ struct Shown {
     kind: ChannelKind,
 }
 
+/// Percentile `p` (0…100, nearest rank) of |value| over the finite values, exactly, in two
+/// parallel passes without sorting or copying the map: the bit patterns of non-negative
+/// doubles order like their values, so a histogram of their top 16 bits finds the bucket that
+/// holds the rank, and only that bucket's values are then selected from.
 fn percentile_abs(data: &Array2<f64>, p: f64) -> f64 {
-    percentile_abs_sampled(data, p, data.len())
+    const BUCKETS: usize = 1 << 16;
+    let bucket = |v: f64| (v.abs().to_bits() >> 48) as usize;
+    let values: Vec<f64>;
+    let slice = match data.as_slice_memory_order() {
+        Some(s) => s,
+        None => {
+            values = data.iter().copied().collect();
+            &values
+        }
+    };
+    let hist = slice
+        .par_chunks(1 << 16)
+        .map(|chunk| {
+            let mut h = vec![0u64; BUCKETS];
+            for &v in chunk.iter().filter(|v| v.is_finite()) {
+                h[bucket(v)] += 1;
+            }
+            h
+        })
+        .reduce(
+            || vec![0u64; BUCKETS],
+            |mut a, b| {
+                a.iter_mut().zip(&b).for_each(|(x, y)| *x += y);
+                a
+            },
+        );
+    let total: u64 = hist.iter().sum();
+    if total == 0 {
+        return f64::NAN;
+    }
+    let k = (((p / 100.0) * (total - 1) as f64).round() as u64).min(total - 1);
+    let (mut below, mut target) = (0u64, 0usize);
+    for (b, &count) in hist.iter().enumerate() {
+        if below + count > k {
+            target = b;
+            break;
+        }
+        below += count;
+    }
+    let mut inside: Vec<f64> = slice
+        .par_iter()
+        .filter(|v| v.is_finite() && bucket(**v) == target)
+        .map(|v| v.abs())
+        .collect();
+    let r = ((k - below) as usize).min(inside.len().saturating_sub(1));
+    match inside.is_empty() {
+        true => f64::NAN,
+        false => *inside.select_nth_unstable_by(r, f64::total_cmp).1,
+    }
 }
 
 /// Percentile `p` of |value| over at most about `samples` finite values taken at a fixed
@@ -311,11 +364,10 @@ fn shown_channel(map: &Map, c: &FigureChoices) -> Result<Shown> {
         }
     };
     let kind = channel.kind;
-    let data = if factor == 1.0 {
-        channel.data
-    } else {
-        channel.data.mapv(|v| v * factor)
-    };
+    let mut data = channel.data;
+    if factor != 1.0 {
+        data.par_mapv_inplace(|v| v * factor);
+    }
     Ok(Shown {
         data,
         label,
@@ -406,7 +458,7 @@ struct Plane {
     right: Option<SecondaryAxis>,
 }
 
-fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> Result<Plane> {
+fn plane(map: &Map, shown: Array2<f64>, c: &FigureChoices, kind: FrameKind) -> Result<Plane> {
     if map.y().quantity != Quantity::Field {
         return Err(Error::MapRequirement(format!(
             "figures need the field B along y; the map's y axis `{}` measures {:?}",
@@ -437,7 +489,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
             Ok(Plane {
                 x: map.x().values().to_vec(),
                 y: b,
-                values: shown.clone(),
+                values: shown,
                 frame,
                 x_label: "V_g (V)".into(),
                 y_label: "B (T)".into(),
@@ -477,7 +529,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
             Ok(Plane {
                 x,
                 y: b,
-                values: shown.clone(),
+                values: shown,
                 frame: Some(Frame::density_field(n0)?),
                 x_label: "n (10^{12} cm^{−2})".into(),
                 y_label: "B (T)".into(),
@@ -488,7 +540,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
             })
         }
         FrameKind::Filling => {
-            let (n_axis, data) = density_map(map, shown, c.gate)?;
+            let (n_axis, data) = density_map(map, &shown, c.gate)?;
             let b_axis = map.y();
             let (nlo, nhi) = (n_axis.min(), n_axis.max());
             let bmax = b_axis.max();
@@ -533,7 +585,7 @@ fn plane(map: &Map, shown: &Array2<f64>, c: &FigureChoices, kind: FrameKind) -> 
         }
         FrameKind::Wannier => {
             let n0 = need_n0(n0, "the Wannier frame")?;
-            let (n_axis, data) = density_map(map, shown, c.gate)?;
+            let (n_axis, data) = density_map(map, &shown, c.gate)?;
             let b_axis = map.y();
             let (xlo, xhi) = match c.x_range {
                 Some(r) => check_range(r, "x range")?,
@@ -684,8 +736,8 @@ pub fn build_panel(map: &Map, c: &FigureChoices) -> Result<(Panel, BuildReport)>
             FrameKind::Gate
         },
     );
-    let shown = shown_channel(map, c)?;
-    let pl = plane(map, &shown.data, c, kind)?;
+    let mut shown = shown_channel(map, c)?;
+    let pl = plane(map, std::mem::take(&mut shown.data), c, kind)?;
     let x_range = match (c.x_range, kind) {
         (Some(r), FrameKind::Gate | FrameKind::Density) => check_range(r, "x range")?,
         _ => range_of(&pl.x),
@@ -996,6 +1048,33 @@ pub fn build_figure(map: &Map, c: &FigureChoices) -> Result<(Figure, BuildReport
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn histogram_percentile_equals_direct_selection() {
+        let mut seed = 5u64;
+        let mut rnd = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 7;
+            seed ^= seed << 17;
+            (seed >> 11) as f64 / (1u64 << 53) as f64
+        };
+        for (rows, cols) in [(1, 1), (3, 7), (40, 300), (200, 900)] {
+            let data = Array2::from_shape_fn((rows, cols), |(i, j)| match (i * cols + j) % 17 {
+                0 => f64::NAN,
+                1 => 0.0,
+                2 => -1e-9 * rnd(),
+                _ => (rnd() - 0.5) * 10f64.powf(6.0 * rnd() - 3.0),
+            });
+            for p in [0.0, 1.0, 25.0, 50.0, 90.0, 99.0, 100.0] {
+                let want = percentile_abs_sampled(&data, p, data.len());
+                let got = percentile_abs(&data, p);
+                assert!(
+                    got == want || (got.is_nan() && want.is_nan()),
+                    "{rows}×{cols} p {p}: {got} vs {want}"
+                );
+            }
+        }
+    }
+
     use super::*;
     use fanmark_core::map::Channel;
 

@@ -51,6 +51,18 @@ impl ColorMapping {
     pub fn index(&self, v: f64) -> Option<u8> {
         self.position(v).map(|t| (t * 255.0).round() as u8)
     }
+
+    /// [`Self::index`] with the scale's ends transformed once, for use per pixel (same values).
+    pub fn indexer(&self) -> impl Fn(f64) -> Option<u8> + Sync + '_ {
+        let (a, b) = (forward(self.scale, self.lo), forward(self.scale, self.hi));
+        move |v| {
+            let f = forward(self.scale, v);
+            if !f.is_finite() {
+                return None;
+            }
+            Some((((f - a) / (b - a)).clamp(0.0, 1.0) * 255.0).round() as u8)
+        }
+    }
 }
 
 /// Check the heat map's shape, coordinates and colour table.
@@ -238,6 +250,7 @@ pub fn render_rgba(
     let ys = axis_samples(&h.y, (0..ht).map(|i| at(y_edges, ht, i)), h.resample);
     let missing = h.missing.map(|c| [c[0], c[1], c[2], 255]).unwrap_or([0; 4]);
     let v = &h.values;
+    let index = map.indexer();
     // Rows are independent: drawn in parallel.
     out.par_chunks_mut(w * 4)
         .zip(ys.par_iter())
@@ -265,7 +278,7 @@ pub fn render_rgba(
                         .map(|(val, _)| *val)
                         .unwrap_or(f64::NAN)
                 };
-                let px = match map.index(value) {
+                let px = match index(value) {
                     Some(i) => {
                         let col = h.colors[i as usize];
                         [col[0], col[1], col[2], 255]
