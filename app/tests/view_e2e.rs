@@ -42,6 +42,13 @@ impl Drop for Display {
 
 static NEXT_DISPLAY: AtomicU32 = AtomicU32::new(0);
 
+/// The end-to-end tests run one at a time: each drives a real window and its timing.
+static ONE_AT_A_TIME: std::sync::Mutex<()> = std::sync::Mutex::new(());
+
+fn one_at_a_time() -> std::sync::MutexGuard<'static, ()> {
+    ONE_AT_A_TIME.lock().unwrap_or_else(|e| e.into_inner())
+}
+
 /// Start Xvfb on a free display (depth 24), or `None` (with the reason printed) when Xvfb is
 /// missing and not required.
 fn start_display() -> Option<Display> {
@@ -232,6 +239,10 @@ impl Viewer {
             std::thread::sleep(Duration::from_millis(50));
         };
         self.xdo(&["windowfocus", "--sync", &wid]);
+        // The X server has moved the focus; give the viewer's event loop a moment to take
+        // the focus-in before the first key (without a window manager a key sent at once can
+        // arrive before it and be dropped).
+        std::thread::sleep(Duration::from_millis(300));
         let geo = self.xdo(&["getwindowgeometry", "--shell", &wid]);
         let get = |k: &str| -> i64 {
             geo.lines()
@@ -323,6 +334,7 @@ fn close_rgb(p: [u8; 3], q: [u8; 3], tol: u8) -> bool {
 
 #[test]
 fn drive_the_window_label_a_ridge_and_match_the_off_screen_picture() {
+    let _serial = one_at_a_time();
     let Some(display) = start_display() else {
         return;
     };
@@ -510,6 +522,10 @@ fn valid(path: &Path) -> Project {
 
 #[test]
 fn sigkill_after_a_change_keeps_it_and_never_tears_the_project() {
+    let _serial = one_at_a_time();
+    // The autosave comes a moment after a change: well within the second of work a crash may
+    // lose.
+    assert!(fanmark::viewer::window::AUTOSAVE_DELAY <= Duration::from_secs(1));
     let Some(display) = start_display() else {
         return;
     };
@@ -522,7 +538,13 @@ fn sigkill_after_a_change_keeps_it_and_never_tears_the_project() {
     v.first_frame();
     v.window();
     v.keys(&["t", "2", "space", "0", "Return"]);
-    std::thread::sleep(Duration::from_millis(1200));
+    // SIGKILL once the viewer has autosaved the change (on a busy machine the keys can take
+    // longer than the autosave delay to arrive), and no sooner than 1.2 s after it.
+    let sent = Instant::now();
+    v.wait_line("the autosave of the new label", 60, |l| {
+        l.starts_with("saved ")
+    });
+    std::thread::sleep(Duration::from_millis(1200).saturating_sub(sent.elapsed()));
     v.child.kill().unwrap();
     v.child.wait().unwrap();
     let p = valid(&proj);
@@ -538,7 +560,11 @@ fn sigkill_after_a_change_keeps_it_and_never_tears_the_project() {
     v.first_frame();
     v.window();
     v.keys(&["r", "e", "d", "g", "e", "Return"]);
-    std::thread::sleep(Duration::from_millis(1200));
+    let sent = Instant::now();
+    v.wait_line("the autosave of the rename", 60, |l| {
+        l.starts_with("saved ")
+    });
+    std::thread::sleep(Duration::from_millis(1200).saturating_sub(sent.elapsed()));
     v.child.kill().unwrap();
     v.child.wait().unwrap();
     let p = valid(&proj);
@@ -559,7 +585,12 @@ fn sigkill_after_a_change_keeps_it_and_never_tears_the_project() {
         burst.extend(["t", "1", "space", "0", "Return"]);
         burst.extend(["m", "2", "bracketright", "p"]);
         v.keys(&burst);
-        std::thread::sleep(Duration::from_millis(kill_ms));
+        let sent = Instant::now();
+        if kill_ms >= 1000 {
+            // This round checks the burst's label is kept: wait for its autosave.
+            v.wait_line("the autosave of the burst", 60, |l| l.starts_with("saved "));
+        }
+        std::thread::sleep(Duration::from_millis(kill_ms).saturating_sub(sent.elapsed()));
         v.child.kill().unwrap();
         v.child.wait().unwrap();
         let p = valid(&proj);

@@ -344,6 +344,13 @@ pub const POINTER_HELP: [(&str, &str); 5] = [
     ("wheel", "zoom about the pointer"),
 ];
 
+/// Whether a key the operating system repeats because it is held down may act again: only
+/// commands in the normal mode repeat (panning, zooming, stepping), and never one that opens
+/// text entry; in text entry a repeat is dropped, so one slow key press never types twice.
+pub fn repeat_allowed(action: &Action, mode: &Mode) -> bool {
+    matches!(mode, Mode::Normal) && !matches!(action, Action::BeginTyping(_))
+}
+
 /// The action of a key press in `mode`, if any. While typing, printable keys are text.
 pub fn action_for(key: Key, ctrl: bool, mode: &Mode) -> Option<Action> {
     if let Mode::Typing { .. } = mode {

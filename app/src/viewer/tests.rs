@@ -696,3 +696,21 @@ fn cached_layer_frames_equal_a_direct_render_of_the_same_state() {
         }
     }
 }
+
+#[test]
+fn held_keys_repeat_commands_but_never_type_twice() {
+    use super::keys::repeat_allowed;
+    use super::state::{Mode, TypingPurpose};
+    let normal = Mode::Normal;
+    let typing = Mode::Typing {
+        purpose: TypingPurpose::Rename,
+        text: String::new(),
+    };
+    let zoom = Action::ZoomAt(10.0, 10.0, 1.2);
+    assert!(repeat_allowed(&zoom, &normal));
+    assert!(!repeat_allowed(
+        &Action::BeginTyping(TypingPurpose::Rename),
+        &normal
+    ));
+    assert!(!repeat_allowed(&zoom, &typing));
+}

@@ -3,7 +3,7 @@
 //! and the project is autosaved a moment after each change and on close.
 
 use super::draw::{cut_csv, cut_of, export_figure, Renderer, Reuse};
-use super::keys::{action_for, Key};
+use super::keys::{action_for, repeat_allowed, Key};
 use super::project;
 use super::state::{Action, Button, Drag, Effect, ViewState};
 use crate::figure::{self, Format};
@@ -317,6 +317,9 @@ impl ApplicationHandler for App {
                     return;
                 };
                 if let Some(a) = action_for(k, self.mods.control_key(), &self.state.mode) {
+                    if event.repeat && !repeat_allowed(&a, &self.state.mode) {
+                        return;
+                    }
                     self.dispatch(a, el);
                 }
             }
