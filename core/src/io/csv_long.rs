@@ -559,8 +559,50 @@ fn read_header(path: &Path, head: &[u8]) -> Result<(String, usize, usize)> {
     }
 }
 
-/// Load a long-format delimited text file into a gridded [`Map`].
+/// Load a long-format delimited text file into a gridded [`Map`]: [`read_points`], then
+/// [`crate::grid`].
 pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<Map> {
+    let p = read_points(path, opts, progress)?;
+    let mut map = grid_flat(p.set, p.flat, p.swept_on_x, &opts.grid, opts.duplicates)
+        .map_err(|e| with_path(e, path))?;
+    map.meta.columns = p.columns;
+    map.meta.temperature_k = p.temperature_k;
+    map.meta.notes.push(p.delimiter_note);
+    Ok(map)
+}
+
+/// The points of a long-format file as read, cut into sweeps in file order, before gridding.
+pub struct FilePoints {
+    /// Names and quantities of the coordinates and channels (the sweeps are in `flat`).
+    pub set: SweepSet,
+    /// Every point's swept coordinate and channel values, with the sweeps' spans.
+    pub flat: FlatSweeps,
+    /// Whether the swept coordinate belongs on the map's x axis.
+    pub swept_on_x: bool,
+    /// (role, header) of each column used.
+    pub columns: Vec<(String, String)>,
+    /// Mean temperature of a temperature column, K.
+    pub temperature_k: Option<f64>,
+    /// A note naming the delimiter.
+    pub delimiter_note: String,
+}
+
+impl FilePoints {
+    /// Number of points read.
+    pub fn len(&self) -> usize {
+        self.flat.swept.len()
+    }
+
+    /// True when no point was read (never for a returned value: a file without points is an
+    /// error).
+    pub fn is_empty(&self) -> bool {
+        self.flat.swept.is_empty()
+    }
+}
+
+/// Read a long-format delimited text file into its points and sweeps (the parsing half of
+/// [`load`]).
+pub fn read_points(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<FilePoints> {
     let io = |source| Error::Io {
         path: path.to_path_buf(),
         source,
@@ -715,9 +757,7 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
             .collect(),
         sweeps: Vec::new(),
     };
-    let mut map = grid_flat(set, cutter.flat, swept_on_x, &opts.grid, opts.duplicates)
-        .map_err(|e| with_path(e, path))?;
-    map.meta.columns = {
+    let columns = {
         let mut c = vec![
             (
                 lay.coord_info[0].role.name(),
@@ -735,13 +775,14 @@ pub fn load(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<
         );
         c
     };
-    if temps.1 > 0 {
-        map.meta.temperature_k = Some(temps.0 / temps.1 as f64);
-    }
-    map.meta
-        .notes
-        .push(format!("delimiter: {}", lay.delimiter.describe()));
-    Ok(map)
+    Ok(FilePoints {
+        set,
+        flat: cutter.flat,
+        swept_on_x,
+        columns,
+        temperature_k: (temps.1 > 0).then(|| temps.0 / temps.1 as f64),
+        delimiter_note: format!("delimiter: {}", lay.delimiter.describe()),
+    })
 }
 
 fn with_path(e: Error, path: &Path) -> Error {
