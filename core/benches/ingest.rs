@@ -72,6 +72,26 @@ fn peak_rss_mib() -> f64 {
         .map_or(f64::NAN, |kb| kb / 1024.0)
 }
 
+/// Run this binary once with `mode` on `path` in a fresh process; its three printed numbers.
+fn child_run(exe: &Path, mode: &str, path: &Path) -> [f64; 3] {
+    let out = Command::new(exe)
+        .arg(mode)
+        .arg(path)
+        .output()
+        .expect("child");
+    let f: Vec<f64> = String::from_utf8_lossy(&out.stdout)
+        .split_whitespace()
+        .filter_map(|x| x.parse().ok())
+        .collect();
+    assert_eq!(
+        f.len(),
+        3,
+        "child failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    [f[0], f[1], f[2]]
+}
+
 fn median(mut v: Vec<f64>) -> f64 {
     v.sort_by(f64::total_cmp);
     v[v.len() / 2]
@@ -137,53 +157,18 @@ fn main() {
     // Warm the page cache, then time whole loads (parse + grid), each in a fresh process so
     // the peak resident memory is the loader's alone.
     let _ = std::fs::read(&path);
-    let mut times = Vec::new();
-    let mut peak = 0.0f64;
-    let mut grid_mib = 0.0;
-    for _ in 0..5 {
-        let out = Command::new(&exe)
-            .arg("--load-once")
-            .arg(&path)
-            .output()
-            .expect("child");
-        let s = String::from_utf8_lossy(&out.stdout);
-        let f: Vec<f64> = s
-            .split_whitespace()
-            .filter_map(|x| x.parse().ok())
-            .collect();
-        assert_eq!(
-            f.len(),
-            3,
-            "child failed: {}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        times.push(f[0]);
-        peak = peak.max(f[1]);
-        grid_mib = f[2];
-    }
-    let t = median(times);
+    let loads: Vec<[f64; 3]> = (0..5)
+        .map(|_| child_run(&exe, "--load-once", &path))
+        .collect();
+    let t = median(loads.iter().map(|f| f[0]).collect());
+    let peak = loads.iter().map(|f| f[1]).fold(0.0, f64::max);
+    let grid_mib = loads[loads.len() - 1][2];
     // The reading half alone (what pandas' read_csv does: text to columns), same file.
-    let mut reads = Vec::new();
-    for _ in 0..5 {
-        let out = Command::new(&exe)
-            .arg("--read-once")
-            .arg(&path)
-            .output()
-            .expect("child");
-        let s = String::from_utf8_lossy(&out.stdout);
-        let f: Vec<f64> = s
-            .split_whitespace()
-            .filter_map(|x| x.parse().ok())
-            .collect();
-        assert_eq!(
-            f.len(),
-            3,
-            "child failed: {}",
-            String::from_utf8_lossy(&out.stderr)
-        );
-        reads.push(f[0]);
-    }
-    let tr = median(reads);
+    let tr = median(
+        (0..5)
+            .map(|_| child_run(&exe, "--read-once", &path)[0])
+            .collect(),
+    );
     println!(
         "file            {} ({mb:.1} MB, {NX} × {NY} points)",
         path.display()
