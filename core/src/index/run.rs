@@ -33,6 +33,7 @@ pub enum StateClass {
 pub struct HallCheck {
     /// Median σ_xy of the R_xy plateaus the line passes through in its seen field range,
     /// e²/h (sign fixed so σ_xy grows with n); NaN (null) without a plateau.
+    #[serde(deserialize_with = "nan_when_null")]
     pub sigma_xy_e2h: f64,
     /// Expected t.
     pub expected_e2h: f64,
@@ -41,6 +42,12 @@ pub struct HallCheck {
     pub plateau_rows: usize,
     /// `agrees`, `contradicts` or `no_plateau`.
     pub verdict: String,
+}
+
+/// Read a number that JSON writes as null when it is NaN (serde writes a non-finite f64 as
+/// null), so a report read back holds the NaN it was written from.
+fn nan_when_null<'de, D: serde::Deserializer<'de>>(d: D) -> std::result::Result<f64, D::Error> {
+    Ok(Option::<f64>::deserialize(d)?.unwrap_or(f64::NAN))
 }
 
 /// Confidence factor of a state whose Hall plateau contradicts its t.
@@ -320,4 +327,31 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
         states,
         misalignment_fraction: gap.misalignment,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn a_hall_check_without_plateau_reads_back_from_its_json() {
+        // serde_json writes the NaN of "no plateau" as null; reading the report back (as
+        // `figure --states` and the viewer do) must give NaN again, not fail.
+        let h = HallCheck {
+            sigma_xy_e2h: f64::NAN,
+            expected_e2h: 14.0,
+            plateau_rows: 0,
+            verdict: "no_plateau".into(),
+        };
+        let text = serde_json::to_string(&h).unwrap();
+        assert!(text.contains("\"sigma_xy_e2h\":null"), "{text}");
+        let back: HallCheck = serde_json::from_str(&text).unwrap();
+        assert!(back.sigma_xy_e2h.is_nan());
+        assert_eq!(back.verdict, "no_plateau");
+        let agrees: HallCheck = serde_json::from_str(
+            r#"{"sigma_xy_e2h": 2.01, "expected_e2h": 2.0, "plateau_rows": 9, "verdict": "agrees"}"#,
+        )
+        .unwrap();
+        assert_eq!(agrees.sigma_xy_e2h, 2.01);
+    }
 }

@@ -40,6 +40,10 @@ pub struct ScoreOptions {
     /// Two detections closer than this many columns on average over their common rows explain
     /// the same ridge.
     pub merge_columns: f64,
+    /// Power of the complexity by which the general Wannier family's smallest score grows
+    /// (see [`score_needed`]).
+    #[serde(default)]
+    pub wannier_score_power: f64,
 }
 
 impl Default for ScoreOptions {
@@ -51,6 +55,52 @@ impl Default for ScoreOptions {
             min_rows: 4,
             rows_per_complexity: 0.5,
             merge_columns: 1.6,
+            wannier_score_power: 0.75,
+        }
+    }
+}
+
+/// Where in density a candidate's line can exist in a device with a superlattice: the Landau
+/// levels of the main Dirac cone fill the densities up to half way to the satellite cones
+/// (|n| ≤ 2n₀), those of a satellite cone at s = ±4 the densities beyond (±n ≥ 2n₀); a general
+/// Wannier line (a gap of the Hofstadter spectrum) can cross any density. Without n₀ every
+/// line is a main-cone line everywhere.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Cone {
+    /// Anywhere in density.
+    Everywhere,
+    /// |n| ≤ [`CONE_BOUNDARY_N0`]·n₀.
+    Main,
+    /// sign(s)·n ≥ [`CONE_BOUNDARY_N0`]·n₀.
+    Satellite,
+}
+
+/// Density, in units of n₀, where the main cone's Landau levels give way to a satellite
+/// cone's (half way from charge neutrality to the satellite Dirac point at 4n₀).
+pub const CONE_BOUNDARY_N0: f64 = 2.0;
+
+impl Cone {
+    /// The cone of a line of `family` with intercept `s`.
+    pub fn of(family: Family, s: Rational) -> Cone {
+        match family {
+            Family::Integer | Family::BrokenSymmetry | Family::CompositeFermion if s.is_zero() => {
+                Cone::Main
+            }
+            Family::Satellite if !s.is_zero() => Cone::Satellite,
+            _ => Cone::Everywhere,
+        }
+    }
+
+    /// True when density `n_m2` (m⁻²) lies in the cone of a line with intercept `s`, for a
+    /// moiré cell of `n0_m2` carriers per m² (None: no superlattice, always true).
+    pub fn holds(self, s: Rational, n_m2: f64, n0_m2: Option<f64>) -> bool {
+        let Some(n0) = n0_m2.filter(|v| *v > 0.0) else {
+            return true;
+        };
+        match self {
+            Cone::Everywhere => true,
+            Cone::Main => n_m2.abs() <= CONE_BOUNDARY_N0 * n0,
+            Cone::Satellite => s.to_f64().signum() * n_m2 >= CONE_BOUNDARY_N0 * n0,
         }
     }
 }
@@ -67,6 +117,8 @@ pub struct Candidate {
     /// Complexity ≥ 1: grows with the denominators, with |t|, and from the degenerate sequence
     /// to symmetry-broken, fractional and Wannier families.
     pub complexity: f64,
+    /// Where in density the line can exist.
+    pub cone: Cone,
 }
 
 /// Complexity of a (t, s) line of `family`.
@@ -79,7 +131,7 @@ pub fn complexity(family: Family, t: Rational, s: Rational) -> f64 {
         Family::Wannier => 2.5,
         Family::BrownZak => 3.0,
     };
-    base + (t.denom() - 1) as f64 + (s.denom() - 1) as f64 + 0.02 * t.abs().to_f64()
+    base + (t.denom() - 1) as f64 + (s.denom() - 1) as f64 + T_COMPLEXITY * t.abs().to_f64()
 }
 
 impl Candidate {
@@ -88,6 +140,7 @@ impl Candidate {
         let (t, s) = line.ts()?;
         let c = complexity(line.family, t, s);
         Some(Candidate {
+            cone: Cone::of(line.family, s),
             line,
             t,
             s,
@@ -113,6 +166,9 @@ pub struct LineEvidence {
     pub rows_seen: usize,
     /// Rows where the line lies inside the map.
     pub rows_inside: usize,
+    /// Smallest score that counts as a detection for this candidate's complexity.
+    #[serde(default)]
+    pub score_needed: f64,
 }
 
 /// Fractional column of density `n` (m⁻²) on the map's gate axis, or None outside.
@@ -152,6 +208,9 @@ fn positions(map: &Map, gate: &SingleGate, n0: Option<f64>, cands: &[Candidate])
                 };
                 if let Some(m) = moire {
                     let n = c.t.to_f64() * E_OVER_H * b[i] + m;
+                    if !c.cone.holds(c.s, n, n0) {
+                        continue;
+                    }
                     if let Some(f) = column_of(map, gate, n) {
                         row[k] = f;
                     }
@@ -160,6 +219,9 @@ fn positions(map: &Map, gate: &SingleGate, n0: Option<f64>, cands: &[Candidate])
         });
     pos
 }
+
+/// Growth of a candidate's complexity with |t|.
+const T_COMPLEXITY: f64 = 0.02;
 
 /// Score every candidate on the gap-strength map `g` of `map` (same grid).
 pub fn score_lines(
@@ -170,166 +232,216 @@ pub fn score_lines(
     cands: &[Candidate],
     opts: &ScoreOptions,
 ) -> Vec<LineEvidence> {
-    let (rows, cols) = g.dim();
+    let rows = g.nrows();
     let pos = positions(map, gate, n0_m2, cands);
-    // Per row: the largest side offset of each candidate (half the distance to the nearest
-    // candidate of no greater complexity).
+    let b = map.y().values();
+    let win = (rows / 25).max(1);
+    let min_rows = opts.min_rows.max(rows / 25);
+    let dmax = side_limits(&pos, cands, map.x().len());
+    (0..cands.len())
+        .into_par_iter()
+        .map(|k| {
+            let col: Vec<f64> = (0..rows).map(|i| pos[[i, k]]).collect();
+            let lim: Vec<f64> = (0..rows).map(|i| dmax[[i, k]]).collect();
+            let need = (min_rows as f64 * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
+                .ceil() as usize;
+            let score_needed = score_needed(&cands[k], opts);
+            line_evidence(k, g, &col, &lim, b, win, (need, score_needed), opts)
+        })
+        .collect()
+}
+
+/// Per row and candidate, the largest side offset in columns: half the distance to the
+/// nearest other candidate line of no greater complexity (a coincident line counts, so where
+/// lines converge no row is evidence for any one of them, and a complex candidate inside the
+/// broad plateau of a simpler state has no contrast). Rows × candidates.
+fn side_limits(pos: &Array2<f64>, cands: &[Candidate], cols: usize) -> Array2<f64> {
+    let rows = pos.nrows();
     let mut dmax = Array2::from_elem((rows, cands.len()), f64::NAN);
     dmax.outer_iter_mut()
         .into_par_iter()
         .enumerate()
         .for_each(|(i, mut out)| {
-            let mut order: Vec<usize> = (0..cands.len())
+            let mut members: Vec<(f64, usize)> = (0..cands.len())
                 .filter(|&k| pos[[i, k]].is_finite())
+                .map(|k| (pos[[i, k]], k))
                 .collect();
-            order.sort_by(|&a, &b| pos[[i, a]].total_cmp(&pos[[i, b]]));
-            for (r, &k) in order.iter().enumerate() {
-                let ck = cands[k].complexity;
-                let pk = pos[[i, k]];
+            members.sort_by(|a, c| a.0.total_cmp(&c.0));
+            for (r, &(pk, m)) in members.iter().enumerate() {
+                let ck = cands[m].complexity;
                 let mut best = cols as f64;
-                for &o in order[..r].iter().rev() {
-                    let d = pk - pos[[i, o]];
+                for &(po, o) in members[..r].iter().rev() {
+                    let d = pk - po;
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck && d > 1e-9 {
+                    if cands[o].complexity <= ck {
                         best = d;
                         break;
                     }
                 }
-                for &o in &order[r + 1..] {
-                    let d = pos[[i, o]] - pk;
+                for &(po, o) in &members[r + 1..] {
+                    let d = po - pk;
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck && d > 1e-9 {
+                    if cands[o].complexity <= ck {
                         best = d;
                         break;
                     }
                 }
-                out[k] = 0.5 * best;
+                out[m] = 0.5 * best;
             }
         });
-    let b = map.y().values();
-    let win = (rows / 25).max(1);
-    let min_rows = opts.min_rows.max(rows / 25);
-    (0..cands.len())
-        .into_par_iter()
-        .map(|k| {
-            let mut contrast = vec![f64::NAN; rows];
-            let mut inside = 0;
-            for i in 0..rows {
-                let f = pos[[i, k]];
-                if !f.is_finite() {
-                    continue;
-                }
-                let row = g.row(i);
-                let row = row.as_slice().expect("standard layout");
-                let gc = sample(row, f);
-                if !gc.is_finite() {
-                    continue;
-                }
-                // Unresolved from a simpler neighbour in this row: no evidence either way.
-                if dmax[[i, k]] < 1.5 {
-                    continue;
-                }
-                let dhi = dmax[[i, k]];
-                let mut best = f64::NEG_INFINITY;
-                let mut d = 1.5;
-                loop {
-                    let (l, r) = (sample(row, f - d), sample(row, f + d));
-                    // A ridge needs lower ground on both sides: a line at the map's edge or on
-                    // the flank of a broader feature (not above either side) shows nothing.
-                    if l.is_finite() && r.is_finite() {
-                        let c = if gc > l.max(r) {
-                            gc - 0.5 * (l + r)
-                        } else {
-                            0.0
-                        };
-                        best = best.max(c);
-                    }
-                    if d >= dhi {
-                        break;
-                    }
-                    d = (d * 1.6).min(dhi);
-                }
-                if best.is_finite() {
-                    contrast[i] = best;
-                    inside += 1;
-                }
-            }
-            // Smoothed contrast: the mean of the finite contrasts within `win` rows on each
-            // side, from running sums (O(rows)).
-            let mut sum = vec![0.0; rows + 1];
-            let mut count = vec![0usize; rows + 1];
-            for i in 0..rows {
-                let finite = contrast[i].is_finite();
-                sum[i + 1] = sum[i] + if finite { contrast[i] } else { 0.0 };
-                count[i + 1] = count[i] + usize::from(finite);
-            }
-            let smooth: Vec<f64> = (0..rows)
-                .map(|i| {
-                    if !contrast[i].is_finite() {
-                        return f64::NAN;
-                    }
-                    let lo = i.saturating_sub(win);
-                    let hi = (i + win + 1).min(rows);
-                    (sum[hi] - sum[lo]) / (count[hi] - count[lo]) as f64
-                })
-                .collect();
-            // Longest run (by summed contrast) of rows above the threshold.
-            let mut best_run: Option<(usize, usize, f64)> = None;
-            let mut i = 0;
-            while i < rows {
-                if smooth[i].is_finite() && smooth[i] > opts.row_threshold {
-                    let start = i;
-                    let mut sum = 0.0;
-                    while i < rows && smooth[i].is_finite() && smooth[i] > opts.row_threshold {
-                        sum += contrast[i];
-                        i += 1;
-                    }
-                    if best_run.is_none_or(|(_, _, s)| sum > s) {
-                        best_run = Some((start, i, sum));
-                    }
+    dmax
+}
+
+/// The evidence for candidate `k` from its column `col` in each row (NaN outside the map or
+/// its cone) and its largest side offset `lim` per row, on the gap-strength map `g` with
+/// fields `b` (T); `win` rows of smoothing on each side, `need` rows for a detection.
+#[allow(clippy::too_many_arguments)]
+fn line_evidence(
+    k: usize,
+    g: &Array2<f64>,
+    col: &[f64],
+    lim: &[f64],
+    b: &[f64],
+    win: usize,
+    (need, score_needed): (usize, f64),
+    opts: &ScoreOptions,
+) -> LineEvidence {
+    let rows = col.len();
+    let mut contrast = vec![f64::NAN; rows];
+    let mut inside = 0;
+    for i in 0..rows {
+        let f = col[i];
+        if !f.is_finite() {
+            continue;
+        }
+        let row = g.row(i);
+        let row = row.as_slice().expect("standard layout");
+        let gc = sample(row, f);
+        if !gc.is_finite() {
+            continue;
+        }
+        // Unresolved from a neighbour that explains the same ridge: no evidence either way.
+        if !(lim[i] >= 1.5) {
+            continue;
+        }
+        let dhi = lim[i];
+        let mut best = f64::NEG_INFINITY;
+        let mut d = 1.5;
+        loop {
+            let (l, r) = (sample(row, f - d), sample(row, f + d));
+            // A ridge needs lower ground on both sides: a line at the map's edge or on
+            // the flank of a broader feature (not above either side) shows nothing.
+            if l.is_finite() && r.is_finite() {
+                let c = if gc > l.max(r) {
+                    gc - 0.5 * (l + r)
                 } else {
-                    i += 1;
-                }
+                    0.0
+                };
+                best = best.max(c);
             }
-            let mut ev = LineEvidence {
-                candidate: k,
-                score: 0.0,
-                t_stat: 0.0,
-                b_onset_t: None,
-                b_max_t: None,
-                rows_seen: 0,
-                rows_inside: inside,
-            };
-            if let Some((a, z, _)) = best_run {
-                let v: Vec<f64> = contrast[a..z].to_vec();
-                let n = v.len() as f64;
-                let mean = v.iter().sum::<f64>() / n;
-                let var = v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
-                ev.score = mean;
-                ev.t_stat = mean / (var.sqrt() / n.sqrt()).max(1e-9);
-                ev.rows_seen = v.len();
-                let (b0, b1) = (b[a], b[z - 1]);
-                ev.b_onset_t = Some(b0.min(b1));
-                ev.b_max_t = Some(b0.max(b1));
-                let need = (min_rows as f64
-                    * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
-                .ceil() as usize;
-                if v.len() < need {
-                    ev.score = 0.0;
-                }
+            if d >= dhi {
+                break;
             }
-            ev
+            d = (d * 1.6).min(dhi);
+        }
+        if best.is_finite() {
+            contrast[i] = best;
+            inside += 1;
+        }
+    }
+    // Smoothed contrast: the mean of the finite contrasts within `win` rows on each side, from
+    // running sums (O(rows)).
+    let mut sum = vec![0.0; rows + 1];
+    let mut count = vec![0usize; rows + 1];
+    for i in 0..rows {
+        let finite = contrast[i].is_finite();
+        sum[i + 1] = sum[i] + if finite { contrast[i] } else { 0.0 };
+        count[i + 1] = count[i] + usize::from(finite);
+    }
+    let smooth: Vec<f64> = (0..rows)
+        .map(|i| {
+            if !contrast[i].is_finite() {
+                return f64::NAN;
+            }
+            let lo = i.saturating_sub(win);
+            let hi = (i + win + 1).min(rows);
+            (sum[hi] - sum[lo]) / (count[hi] - count[lo]) as f64
         })
-        .collect()
+        .collect();
+    // The run of rows above the threshold with the largest summed contrast, among the runs
+    // long enough to count (a short run only when no run is long enough).
+    let mut best_run: Option<(usize, usize, f64)> = None;
+    let mut i = 0;
+    while i < rows {
+        if smooth[i].is_finite() && smooth[i] > opts.row_threshold {
+            let start = i;
+            let mut s = 0.0;
+            while i < rows && smooth[i].is_finite() && smooth[i] > opts.row_threshold {
+                s += contrast[i];
+                i += 1;
+            }
+            let better = match best_run {
+                None => true,
+                Some((a, z, bs)) => {
+                    let (long, was_long) = (i - start >= need, z - a >= need);
+                    (long && !was_long) || (long == was_long && s > bs)
+                }
+            };
+            if better {
+                best_run = Some((start, i, s));
+            }
+        } else {
+            i += 1;
+        }
+    }
+    let mut ev = LineEvidence {
+        candidate: k,
+        score: 0.0,
+        t_stat: 0.0,
+        b_onset_t: None,
+        b_max_t: None,
+        rows_seen: 0,
+        rows_inside: inside,
+        score_needed,
+    };
+    if let Some((a, z, _)) = best_run {
+        let v = &contrast[a..z];
+        let n = v.len() as f64;
+        let mean = v.iter().sum::<f64>() / n;
+        let var = v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+        ev.score = mean;
+        ev.t_stat = mean / (var.sqrt() / n.sqrt()).max(1e-9);
+        ev.rows_seen = v.len();
+        let (b0, b1) = (b[a], b[z - 1]);
+        ev.b_onset_t = Some(b0.min(b1));
+        ev.b_max_t = Some(b0.max(b1));
+        if v.len() < need {
+            ev.score = 0.0;
+        }
+    }
+    ev
+}
+
+/// Smallest mean contrast that detects `cand`: [`ScoreOptions::min_score`], raised for the
+/// general Wannier family to min_score × complexity^[`ScoreOptions::wannier_score_power`]. That
+/// family holds many times more lines than all the others together (every slope with every
+/// intercept), so a chance alignment of some ridge with one of them is that much likelier
+/// (the look-elsewhere effect), the more so the finer its fractions.
+pub fn score_needed(cand: &Candidate, opts: &ScoreOptions) -> f64 {
+    if cand.line.family == Family::Wannier {
+        opts.min_score * cand.complexity.max(1.0).powf(opts.wannier_score_power)
+    } else {
+        opts.min_score
+    }
 }
 
 /// True when an evidence passes the detection thresholds.
 pub fn is_detected(ev: &LineEvidence, opts: &ScoreOptions) -> bool {
-    ev.score >= opts.min_score && ev.t_stat >= opts.min_t
+    ev.score >= opts.min_score.max(ev.score_needed) && ev.t_stat >= opts.min_t
 }
 
 /// Non-maximum suppression: of detections whose lines lie within `merge_columns` of each other
@@ -443,5 +555,83 @@ mod tests {
             suppress_neighbours(&map, &gate, Some(n0), &cands, &ev, &o),
             vec![0]
         );
+    }
+
+    #[test]
+    fn a_long_faint_run_wins_over_a_short_bright_spot_and_converging_rows_are_no_evidence() {
+        // Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹.
+        let (rows, cols) = (121, 401);
+        let x = Axis::uniform("vg", Quantity::Gate, -10.0, 0.05, cols).unwrap();
+        let y = Axis::uniform("b", Quantity::Field, 0.0, 0.1, rows).unwrap();
+        let map = Map::new(x, y);
+        let gate = SingleGate {
+            alpha_m2_per_v: 1e15,
+            v_cnp: 0.0,
+        };
+        let b = map.y().values().to_vec();
+        // ν = 6: a faint ridge (contrast 6) from 4 T up; a bright spot (300) at the charge
+        // neutrality point in the three lowest rows, where every s = 0 line meets.
+        let g = Array2::from_shape_fn((rows, cols), |(i, j)| {
+            let c6 = (6.0 * E_OVER_H * b[i] / 1e15 + 10.0) / 0.05;
+            let c0 = 10.0 / 0.05;
+            let ridge = if b[i] >= 4.0 {
+                6.0 * (-((j as f64 - c6) / 1.5).powi(2)).exp()
+            } else {
+                0.0
+            };
+            let spot = if i < 3 {
+                300.0 * (-((j as f64 - c0) / 2.0).powi(2)).exp()
+            } else {
+                0.0
+            };
+            ridge + spot + 0.2 * ((5 * i + 11 * j) as f64).sin()
+        });
+        let cands = vec![
+            cand(Family::Integer, 2, 0),
+            cand(Family::Integer, -2, 0),
+            cand(Family::Integer, 6, 0),
+            cand(Family::Integer, -6, 0),
+        ];
+        let o = ScoreOptions::default();
+        let ev = score_lines(&map, &g, &gate, None, &cands, &o);
+        assert!(is_detected(&ev[2], &o), "ν = 6 missed: {:?}", ev[2]);
+        let onset = ev[2].b_onset_t.unwrap();
+        assert!((3.5..=4.5).contains(&onset), "onset {onset} T");
+        for k in [0, 1, 3] {
+            assert!(
+                !is_detected(&ev[k], &o),
+                "the spot made a line: {:?}",
+                ev[k]
+            );
+        }
+    }
+
+    #[test]
+    fn fan_lines_live_in_their_own_cone() {
+        let n0 = 2.0e16;
+        let main = Cone::of(Family::Integer, Rational::ZERO);
+        let sat = Cone::of(Family::Satellite, Rational::integer(-4));
+        let any = Cone::of(Family::Wannier, Rational::integer(1));
+        assert_eq!(
+            (main, sat, any),
+            (Cone::Main, Cone::Satellite, Cone::Everywhere)
+        );
+        assert!(main.holds(Rational::ZERO, 1.9 * n0, Some(n0)));
+        assert!(!main.holds(Rational::ZERO, -2.1 * n0, Some(n0)));
+        assert!(sat.holds(Rational::integer(-4), -2.1 * n0, Some(n0)));
+        assert!(!sat.holds(Rational::integer(-4), -1.9 * n0, Some(n0)));
+        assert!(!sat.holds(Rational::integer(-4), 3.0 * n0, Some(n0)));
+        assert!(any.holds(Rational::integer(1), 3.0 * n0, Some(n0)));
+        // Without a superlattice there are no cones.
+        assert!(main.holds(Rational::ZERO, 10.0 * n0, None));
+    }
+
+    #[test]
+    fn the_wannier_family_needs_more_evidence_than_the_fan() {
+        let o = ScoreOptions::default();
+        let fan = cand(Family::Integer, 6, 0);
+        let wannier = cand(Family::Wannier, 1, 2);
+        assert_eq!(score_needed(&fan, &o), o.min_score);
+        assert!(score_needed(&wannier, &o) > 1.5 * o.min_score);
     }
 }
