@@ -183,6 +183,10 @@ fn jackknife(
     Some((v0.sqrt(), v1.sqrt()))
 }
 
+/// A fall of 1/(e R_H) between neighbouring gate points larger than this many typical steps
+/// (median |step|) is a sign change of the Hall coefficient, not noise.
+const HALL_JUMP_STEPS: f64 = 10.0;
+
 /// Method (a): the low-field Hall slope. None when the map has no R_xy or no classical range.
 ///
 /// The uncertainty includes how much the answer moves when only the lower half of the
@@ -239,14 +243,30 @@ fn hall_slope_below(map: &Map, v_hint: Option<f64>, top: f64) -> Option<GateEsti
     let rising = cols.windows(2).filter(|w| y[w[1]] > y[w[0]]).count();
     let sign = if 2 * rising >= cols.len() { 1.0 } else { -1.0 };
     let yy: Vec<f64> = cols.iter().map(|&j| sign * y[j]).collect();
-    // Runs of rising y (allowing 4 falling steps of noise); the longest with a zero crossing.
+    // Runs of rising y (allowing 4 falling steps of noise in a row); the longest with a zero
+    // crossing. A fall from positive to negative far larger than the typical step is no noise
+    // but the jump of 1/(e R_H) where the Hall coefficient changes sign away from neutrality
+    // (a van Hove point of a superlattice band): it always ends the run. (At neutrality
+    // itself 1/(e R_H) falls towards a pole on either side and jumps from −∞ to +∞: those
+    // falls keep their sign.)
+    let mut steps: Vec<f64> = yy.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
+    let typical = if steps.is_empty() {
+        0.0
+    } else {
+        let mid = steps.len() / 2;
+        *steps.select_nth_unstable_by(mid, f64::total_cmp).1
+    };
     let mut best: Option<(usize, usize)> = None;
     let mut best_key: Option<f64> = None;
     let mut start = 0;
     let mut bad = 0;
     for k in 1..=yy.len() {
         let ok = k < yy.len() && yy[k] > yy[k - 1];
-        if k < yy.len() && !ok && bad < 4 {
+        let jump = k < yy.len()
+            && yy[k - 1] > 0.0
+            && yy[k] < 0.0
+            && yy[k - 1] - yy[k] > HALL_JUMP_STEPS * typical;
+        if k < yy.len() && !ok && !jump && bad < 4 {
             bad += 1;
             continue;
         }
