@@ -34,6 +34,18 @@ pub enum CalibrationMethod {
     Given,
 }
 
+impl CalibrationMethod {
+    /// Words for messages.
+    pub fn name(self) -> &'static str {
+        match self {
+            CalibrationMethod::HallSlope => "Hall-slope",
+            CalibrationMethod::QuantumHall => "quantum Hall",
+            CalibrationMethod::Geometry => "geometric",
+            CalibrationMethod::Given => "given",
+        }
+    }
+}
+
 /// One gate calibration with standard uncertainties.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct GateEstimate {
@@ -875,22 +887,29 @@ pub fn calibrate_map(
         }
     }
     if stack.is_moire() {
-        if let Some(eb) = b {
-            if let Some(m) = moire_density(
+        // The superlattice is searched with the fan's gate model, else with the Hall slope's
+        // (a fan fitted to the wrong scale finds no satellites); the fan is then refitted
+        // inside the main cone starting from the model that found them.
+        let found = [b, a].into_iter().flatten().find_map(|e| {
+            moire_density(
                 map,
                 minima,
-                &eb.gate(0.0),
+                &e.gate(0.0),
                 stack,
                 crate::moire::HBN_MISMATCH_DEFAULT,
-            ) {
-                if let Some(r) = refine_on_main_cone(map, minima, stack, &eb, m.n0_cm2 * 1e4) {
-                    notes.push(format!(
-                        "the fan was refitted inside the main cone (|n| < {MAIN_CONE_LIMIT_N0} n₀): \
-                         α {:.4e} → {:.4e} cm⁻²/V",
-                        eb.alpha_cm2_per_v, r.alpha_cm2_per_v
-                    ));
-                    b = Some(r);
-                }
+            )
+            .map(|m| (e, m))
+        });
+        if let Some((start, m)) = found {
+            if let Some(r) = refine_on_main_cone(map, minima, stack, &start, m.n0_cm2 * 1e4) {
+                notes.push(format!(
+                    "the fan was refitted inside the main cone (|n| < {MAIN_CONE_LIMIT_N0} n₀) \
+                     from the {} model: α {:.4e} → {:.4e} cm⁻²/V",
+                    start.method.name(),
+                    start.alpha_cm2_per_v,
+                    r.alpha_cm2_per_v
+                ));
+                b = Some(r);
             }
         }
     }
