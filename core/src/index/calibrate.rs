@@ -565,7 +565,8 @@ pub fn from_quantum_hall(
 /// assigned to the nearest member ν of the degenerate sequence `seq` for the current gate
 /// model, three times, starting from V_CNP = `vc0` and 1/α = `inv_alpha0`. Minima farther
 /// than `n_limit_m2` from charge neutrality in density are left out. The uncertainty is the
-/// jackknife over whole lines.
+/// jackknife over whole lines, with half the difference between the fits to the lower and the
+/// upper half of the field range added in quadrature.
 fn fit_fan(
     pts: &[(f64, f64, f64)],
     seq: &[i64],
@@ -626,11 +627,42 @@ fn fit_fan(
         (c > 0.0).then(|| (1.0 / c, a))
     });
     let (sa_jk, sv_jk) = jk.unwrap_or((0.0, 0.0));
+    // The minima of low and of high fields sit differently in broad plateaus (a ridge's
+    // minimum drifts within its plateau as the gap opens): half the difference of fits to the
+    // two halves of the field range is added in quadrature, as a systematic part.
+    let (sa_split, sv_split) = {
+        let mut bs: Vec<f64> = (0..n)
+            .map(|i| xs[i] / (lines[i] as f64 * E_OVER_H))
+            .collect();
+        let mid = bs.len() / 2;
+        let b_mid = if bs.is_empty() {
+            f64::NAN
+        } else {
+            *bs.select_nth_unstable_by(mid, f64::total_cmp).1
+        };
+        let half = |upper: bool| {
+            let idx: Vec<usize> = (0..n)
+                .filter(|&i| (xs[i] / (lines[i] as f64 * E_OVER_H) > b_mid) == upper)
+                .collect();
+            let x: Vec<f64> = idx.iter().map(|&i| xs[i]).collect();
+            let y: Vec<f64> = idx.iter().map(|&i| ys[i]).collect();
+            let w: Vec<f64> = idx.iter().map(|&i| ws[i]).collect();
+            let (a, c, _, _) = wls(&x, &y, &w)?;
+            (c > 0.0).then(|| (1.0 / c, a))
+        };
+        match (half(false), half(true)) {
+            (Some(lo), Some(hi)) => (0.5 * (lo.0 - hi.0).abs(), 0.5 * (lo.1 - hi.1).abs()),
+            _ => (0.0, 0.0),
+        }
+    };
     Some(GateEstimate {
         alpha_cm2_per_v: alpha / 1e4,
-        alpha_sigma_cm2_per_v: (cov[1][1].sqrt() * alpha * alpha).max(sa_jk) / 1e4,
+        alpha_sigma_cm2_per_v: (cov[1][1].sqrt() * alpha * alpha)
+            .max(sa_jk)
+            .hypot(sa_split)
+            / 1e4,
         v_cnp_v: Some(a),
-        v_cnp_sigma_v: Some(cov[0][0].sqrt().max(sv_jk)),
+        v_cnp_sigma_v: Some(cov[0][0].sqrt().max(sv_jk).hypot(sv_split)),
         method: CalibrationMethod::QuantumHall,
         points: n,
     })

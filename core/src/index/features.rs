@@ -3,9 +3,9 @@
 //!
 //! Gap strength per field row: L = ln R_xx (floored at the noise level of R_xx near zero), a
 //! smooth upper background of L from a wide running quantile, and
-//! g = (background − L)/σ_row, where σ_row is a robust (median absolute deviation) noise of the
-//! second-difference residual of L. g is dimensionless (standard deviations of the row noise):
-//! large where R_xx has a deep minimum, ≈ 0 on the background, and the huge dynamic range of
+//! g = (background − L)/σ_row, where σ_row is the noise of the second-difference residual
+//! of L read from a low quantile of its sizes (robust where minima fill most of a row). g is
+//! dimensionless (standard deviations of the row noise): large where R_xx has a deep minimum, ≈ 0 on the background, and the huge dynamic range of
 //! R_xx (from mΩ in a gap to kΩ between) is compressed by the logarithm. Where R_xy exists, the
 //! same is done with ln σ_xx and the larger of the two strengths is kept: every gap is a σ_xx
 //! minimum, while an insulating gap with σ_xy = 0 (ν = 0) is an R_xx maximum.
@@ -32,6 +32,10 @@ pub struct GapMapOptions {
     pub min_row_noise: f64,
     /// Largest |g| kept (g is clipped to ±this).
     pub clip: f64,
+    /// Quantile of |second difference| of ln R along a row from which the row noise is read
+    /// (see [`low_quantile_sigma`]); small, so that signal in most of the row does not count
+    /// as noise.
+    pub noise_quantile: f64,
 }
 
 impl Default for GapMapOptions {
@@ -41,6 +45,7 @@ impl Default for GapMapOptions {
             background_quantile: 0.75,
             min_row_noise: 1e-3,
             clip: 200.0,
+            noise_quantile: 0.2,
         }
     }
 }
@@ -94,6 +99,68 @@ pub(crate) fn robust_sigma(values: impl IntoIterator<Item = f64>) -> f64 {
     1.4826 * quantile_select(&mut v, 0.5)
 }
 
+/// σ of zero-mean normal noise from the `q`-quantile of |x| (q small: robust to a large
+/// fraction of points carrying signal, which only ever widen |x|). NaN without finite values.
+pub fn low_quantile_sigma(values: impl IntoIterator<Item = f64>, q: f64) -> f64 {
+    let mut v: Vec<f64> = values
+        .into_iter()
+        .filter(|x| x.is_finite())
+        .map(f64::abs)
+        .collect();
+    if v.is_empty() {
+        return f64::NAN;
+    }
+    // |X| for X ~ N(0, σ²): P(|X| ≤ zσ) = q with z = Φ⁻¹((1 + q)/2).
+    let z = inverse_normal_cdf(0.5 * (1.0 + q));
+    quantile_select(&mut v, q) / z
+}
+
+/// Φ⁻¹(p) for 0 < p < 1 (Acklam's rational approximation, relative error < 1.2·10⁻⁹).
+fn inverse_normal_cdf(p: f64) -> f64 {
+    const A: [f64; 6] = [
+        -3.969683028665376e1,
+        2.209460984245205e2,
+        -2.759285104469687e2,
+        1.38357751867269e2,
+        -3.066479806614716e1,
+        2.506628277459239,
+    ];
+    const B: [f64; 5] = [
+        -5.447609879822406e1,
+        1.615858368580409e2,
+        -1.556989798598866e2,
+        6.680131188771972e1,
+        -1.328068155288572e1,
+    ];
+    const C: [f64; 6] = [
+        -7.784894002430293e-3,
+        -3.223964580411365e-1,
+        -2.400758277161838,
+        -2.549732539343734,
+        4.374664141464968,
+        2.938163982698783,
+    ];
+    const D: [f64; 4] = [
+        7.784695709041462e-3,
+        3.224671290700398e-1,
+        2.445134137142996,
+        3.754408661907416,
+    ];
+    let pl = 0.02425;
+    if p < pl {
+        let q = (-2.0 * p.ln()).sqrt();
+        (((((C[0] * q + C[1]) * q + C[2]) * q + C[3]) * q + C[4]) * q + C[5])
+            / ((((D[0] * q + D[1]) * q + D[2]) * q + D[3]) * q + 1.0)
+    } else if p <= 1.0 - pl {
+        let q = p - 0.5;
+        let r = q * q;
+        (((((A[0] * r + A[1]) * r + A[2]) * r + A[3]) * r + A[4]) * r + A[5]) * q
+            / (((((B[0] * r + B[1]) * r + B[2]) * r + B[3]) * r + B[4]) * r + 1.0)
+    } else {
+        -inverse_normal_cdf(1.0 - p)
+    }
+}
+
 /// Running `q`-quantile of `row` over a window of `w` points, evaluated every `w/4` points and
 /// interpolated linearly in between (NaN entries are skipped).
 fn running_quantile(row: &[f64], w: usize, q: f64) -> Vec<f64> {
@@ -141,8 +208,11 @@ fn strength_row(l: &[f64], opts: &GapMapOptions) -> (Vec<f64>, f64) {
     let w = ((opts.background_fraction * n as f64) as usize).max(9);
     let bg = running_quantile(l, w, opts.background_quantile);
     let resid = (1..n.saturating_sub(1)).map(|i| l[i] - 0.5 * (l[i - 1] + l[i + 1]));
-    // Second differences of white noise have σ·√(3/2).
-    let sigma = (robust_sigma(resid) / 1.5f64.sqrt()).max(opts.min_row_noise);
+    // Second differences of white noise have σ·√(3/2). The gaps' sharp minima and the dense
+    // low-field oscillations fill much of a row with large second differences, so the noise
+    // is read from a low quantile of their sizes, not from their median.
+    let sigma =
+        (low_quantile_sigma(resid, opts.noise_quantile) / 1.5f64.sqrt()).max(opts.min_row_noise);
     let sigma = if sigma.is_finite() {
         sigma
     } else {
@@ -618,6 +688,53 @@ mod tests {
         } else {
             s[i]
         }
+    }
+
+    #[test]
+    fn inverse_normal_cdf_matches_table_values() {
+        // Standard normal quantiles (any statistics table): Φ⁻¹(0.975) = 1.959964,
+        // Φ⁻¹(0.6) = 0.253347, Φ⁻¹(0.001) = −3.090232.
+        for (p, z) in [
+            (0.975, 1.959964),
+            (0.6, 0.253347),
+            (0.001, -3.090232),
+            (0.5, 0.0),
+        ] {
+            assert!((inverse_normal_cdf(p) - z).abs() < 2e-6, "Φ⁻¹({p})");
+        }
+    }
+
+    #[test]
+    fn row_noise_is_read_past_dense_sharp_minima() {
+        // A row of ln R with white noise σ = 0.01 (Box–Muller from a fixed xorshift) and a sharp
+        // minimum every 5 points (a dense low-field fan: 60 % of the second differences carry
+        // signal): the median of |second difference| is set by the minima, the 0.2-quantile by
+        // the noise, biased up by the share of signal: it is the 0.5-quantile of the noise's
+        // |x|, 2.66× the unbiased one (Φ⁻¹(0.75)/Φ⁻¹(0.6) = 0.674/0.253).
+        let n = 4000;
+        let mut s = 0x9e3779b97f4a7c15u64;
+        let mut u = || {
+            s ^= s << 13;
+            s ^= s >> 7;
+            s ^= s << 17;
+            (s >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let sigma = 0.01;
+        let l: Vec<f64> = (0..n)
+            .map(|j| {
+                let z = (-2.0 * u().max(1e-300).ln()).sqrt() * (std::f64::consts::TAU * u()).cos();
+                let dip = if j % 5 == 0 { -2.0 } else { 0.0 };
+                6.0 + dip + sigma * z
+            })
+            .collect();
+        let (_, est) = strength_row(&l, &GapMapOptions::default());
+        assert!(
+            est > 2.3 * sigma && est < 3.0 * sigma,
+            "estimated {est}, true {sigma}"
+        );
+        // The median-based estimate of the same row is dominated by the minima.
+        let resid = (1..n - 1).map(|i| l[i] - 0.5 * (l[i - 1] + l[i + 1]));
+        assert!(robust_sigma(resid) / 1.5f64.sqrt() > 20.0 * sigma);
     }
 
     #[test]
