@@ -5,7 +5,7 @@
 //! For candidate (t, s) the line n(B) = t(e/h)B + s·n₀ is followed row by row through the map
 //! in (V_g, B) with the gate model V = V_CNP + n/α. In each row the contrast is
 //! c = g(line) − ½[g(line − δ) + g(line + δ)] where g(line) exceeds both sides (0 otherwise),
-//! maximised over side offsets δ from 1.5 columns up to half the distance to the nearest
+//! maximised over side offsets δ from one column up to half the distance to the nearest
 //! candidate line of no greater complexity (so a complex candidate lying inside the broad
 //! plateau of a simpler state has no contrast). Both sides must lie inside the map: a line
 //! running along the map's edge, or down the flank of a broader feature, is not a ridge. The contrast is
@@ -220,6 +220,11 @@ fn positions(map: &Map, gate: &SingleGate, n0: Option<f64>, cands: &[Candidate])
     pos
 }
 
+/// Smallest side offset of the matched filter, in columns: a line closer than twice this to
+/// a neighbour that could explain the same ridge gives no evidence in that row (two minima
+/// two gate steps apart are still told apart by the sample between them).
+pub const MIN_SIDE_COLUMNS: f64 = 1.0;
+
 /// Growth of a candidate's complexity with |t|.
 const T_COMPLEXITY: f64 = 0.02;
 
@@ -325,12 +330,12 @@ fn line_evidence(
             continue;
         }
         // Unresolved from a neighbour that explains the same ridge: no evidence either way.
-        if !(lim[i] >= 1.5) {
+        if !(lim[i] >= MIN_SIDE_COLUMNS) {
             continue;
         }
         let dhi = lim[i];
         let mut best = f64::NEG_INFINITY;
-        let mut d = 1.5;
+        let mut d = MIN_SIDE_COLUMNS;
         loop {
             let (l, r) = (sample(row, f - d), sample(row, f + d));
             // A ridge needs lower ground on both sides: a line at the map's edge or on
