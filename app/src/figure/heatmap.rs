@@ -249,45 +249,71 @@ pub fn render_rgba(
     let xs = axis_samples(&h.x, (0..w).map(|i| at(x_edges, w, i)), h.resample);
     let ys = axis_samples(&h.y, (0..ht).map(|i| at(y_edges, ht, i)), h.resample);
     let missing = h.missing.map(|c| [c[0], c[1], c[2], 255]).unwrap_or([0; 4]);
-    let v = &h.values;
     let index = map.indexer();
-    // Rows are independent: drawn in parallel.
-    out.par_chunks_mut(w * 4)
-        .zip(ys.par_iter())
-        .for_each(|(row, ysample)| {
-            let Some((ya, yb, wy)) = *ysample else {
-                return;
-            };
-            for (c, xsample) in xs.iter().enumerate() {
-                let Some((xa, xb, wx)) = *xsample else {
-                    continue;
-                };
-                let q = [
-                    (v[[ya, xa]], (1.0 - wy) * (1.0 - wx)),
-                    (v[[ya, xb]], (1.0 - wy) * wx),
-                    (v[[yb, xa]], wy * (1.0 - wx)),
-                    (v[[yb, xb]], wy * wx),
-                ];
-                let value = if q.iter().all(|(val, _)| val.is_finite()) {
-                    q.iter().map(|(val, wt)| val * wt).sum()
-                } else {
-                    // Near missing data: the heaviest finite neighbour.
-                    q.iter()
-                        .filter(|(val, _)| val.is_finite())
-                        .max_by(|a, b| a.1.total_cmp(&b.1))
-                        .map(|(val, _)| *val)
-                        .unwrap_or(f64::NAN)
-                };
-                let px = match index(value) {
-                    Some(i) => {
-                        let col = h.colors[i as usize];
-                        [col[0], col[1], col[2], 255]
+    // The colour of each table index, opaque, looked up once per pixel.
+    let table: Vec<[u8; 4]> = h.colors.iter().map(|c| [c[0], c[1], c[2], 255]).collect();
+    let colour = |value: f64| match index(value) {
+        Some(i) => table.get(i as usize).copied().unwrap_or(missing),
+        None => missing,
+    };
+    // Row-major values, so that each output row reads its source rows as slices.
+    let v = h.values.as_standard_layout();
+    let Some(flat) = v.as_slice() else {
+        return out;
+    };
+    let nx = v.dim().1;
+    match h.resample {
+        Resample::Nearest => {
+            // Nearest: both bracketing points are the nearest one; its column is the same for
+            // every row.
+            let cols: Vec<Option<usize>> = xs.iter().map(|x| x.map(|(xa, _, _)| xa)).collect();
+            out.par_chunks_mut(w * 4)
+                .zip(ys.par_iter())
+                .for_each(|(row, ysample)| {
+                    let Some((ya, _, _)) = *ysample else {
+                        return;
+                    };
+                    let src = &flat[ya * nx..(ya + 1) * nx];
+                    for (px, col) in row.chunks_exact_mut(4).zip(&cols) {
+                        if let Some(c) = *col {
+                            px.copy_from_slice(&colour(src[c]));
+                        }
                     }
-                    None => missing,
-                };
-                row[c * 4..c * 4 + 4].copy_from_slice(&px);
-            }
-        });
+                });
+        }
+        Resample::Bilinear => {
+            out.par_chunks_mut(w * 4)
+                .zip(ys.par_iter())
+                .for_each(|(row, ysample)| {
+                    let Some((ya, yb, wy)) = *ysample else {
+                        return;
+                    };
+                    let (ra, rb) = (&flat[ya * nx..(ya + 1) * nx], &flat[yb * nx..(yb + 1) * nx]);
+                    for (px, xsample) in row.chunks_exact_mut(4).zip(&xs) {
+                        let Some((xa, xb, wx)) = *xsample else {
+                            continue;
+                        };
+                        let q = [
+                            (ra[xa], (1.0 - wy) * (1.0 - wx)),
+                            (ra[xb], (1.0 - wy) * wx),
+                            (rb[xa], wy * (1.0 - wx)),
+                            (rb[xb], wy * wx),
+                        ];
+                        let value = if q.iter().all(|(val, _)| val.is_finite()) {
+                            q.iter().map(|(val, wt)| val * wt).sum()
+                        } else {
+                            // Near missing data: the heaviest finite neighbour.
+                            q.iter()
+                                .filter(|(val, _)| val.is_finite())
+                                .max_by(|a, b| a.1.total_cmp(&b.1))
+                                .map(|(val, _)| *val)
+                                .unwrap_or(f64::NAN)
+                        };
+                        px.copy_from_slice(&colour(value));
+                    }
+                });
+        }
+    }
     out
 }
 

@@ -6,6 +6,7 @@
 //! without caches, as the reference.
 
 use super::data::ChannelChoice;
+use super::heat::{heat_after_pan, heat_of};
 use super::keys::help_lines;
 use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
@@ -15,12 +16,12 @@ use crate::figure::heatmap::ColorMapping;
 use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
 use crate::figure::raster::{clip_mask, draw_item, draw_list_with, heatmap_layer, pixel_rect};
 use crate::figure::scene::{
-    AxisSpec, ColorBar, ColorScale, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers,
-    Panel, Polyline, Resample, TextLabel, ValueRange,
+    AxisSpec, ColorBar, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers, Panel,
+    Polyline, TextLabel, ValueRange,
 };
 use crate::figure::text::glyph;
 use fanmark_core::constants::E_OVER_H;
-use fanmark_core::line::{Family, FramePoint, FrameRect, Line};
+use fanmark_core::line::{Family, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
 use std::sync::Arc;
@@ -32,7 +33,7 @@ pub const SCREEN_DPI: f64 = 96.0;
 pub const STATUS_PX: f64 = 22.0;
 
 /// Display unit of a frame's x axis: (label, SI value × factor = shown value).
-fn x_axis_unit(k: FrameKind) -> (&'static str, f64) {
+pub(super) fn x_axis_unit(k: FrameKind) -> (&'static str, f64) {
     match k {
         FrameKind::GateField => ("V_g (V)", 1.0),
         FrameKind::DensityField => ("n (10^{12} cm^{−2})", 1e-16),
@@ -60,116 +61,13 @@ pub struct LayerKey {
     size: (u32, u32),
 }
 
-/// Sample the channel over the viewport at `w`×`h` points (row 0 = bottom, y increasing).
-pub fn sample_view(s: &ViewState, w: usize, h: usize) -> (Array2<f64>, Vec<f64>, Vec<f64>) {
-    let v = s.view;
-    let xs: Vec<f64> = (0..w)
-        .map(|i| v.x0 + (i as f64 + 0.5) / w as f64 * (v.x1 - v.x0))
-        .collect();
-    let ys: Vec<f64> = (0..h)
-        .map(|i| v.y0 + (i as f64 + 0.5) / h as f64 * (v.y1 - v.y0))
-        .collect();
-    let Some(ch) = s.data.channel(s.channel) else {
-        return (Array2::from_elem((h, w), f64::NAN), xs, ys);
-    };
-    let frame = s.core_frame();
-    let (gx, gy) = (s.data.map.x(), s.data.map.y());
-    let gate = s.data.gate;
-    // Level-0 cells per output sample along the denser direction.
-    let (c0, _, _) = (gx.len() as f64, 0, 0);
-    let span_v = {
-        let a = frame.from_frame(FramePoint { x: v.x0, y: v.y1 });
-        let b = frame.from_frame(FramePoint { x: v.x1, y: v.y1 });
-        match (a, b) {
-            (Ok(a), Ok(b)) => (gate.gate_for_density(a.0) - gate.gate_for_density(b.0)).abs(),
-            _ => gx.max() - gx.min(),
-        }
-    };
-    let cells_x = span_v / (gx.max() - gx.min()).max(1e-300) * c0 / w as f64;
-    let cells_y = {
-        let b0 = frame.field_of_y(v.y0).unwrap_or(gy.min());
-        let b1 = frame.field_of_y(v.y1).unwrap_or(gy.max());
-        (b1 - b0).abs() / (gy.max() - gy.min()).max(1e-300) * gy.len() as f64 / h as f64
-    };
-    let cpp = cells_x.min(cells_y).max(1.0);
-    let (xs2, ys2) = (&xs, &ys);
-    if matches!(
-        s.frame,
-        FrameKind::GateField | FrameKind::DensityField | FrameKind::Wannier
-    ) {
-        // In these frames x fixes the density and y the field: look each up once per column
-        // and once per row instead of once per sample.
-        let ym = 0.5 * (v.y0 + v.y1);
-        let xm = 0.5 * (v.x0 + v.x1);
-        let cols: Vec<Option<f64>> = xs
-            .iter()
-            .map(|&x| {
-                let (n, _) = frame.from_frame(FramePoint { x, y: ym }).ok()?;
-                gx.fractional_index(gate.gate_for_density(n))
-            })
-            .collect();
-        let rows: Vec<Option<f64>> = ys
-            .iter()
-            .map(|&y| {
-                let (_, b) = frame.from_frame(FramePoint { x: xm, y }).ok()?;
-                gy.fractional_index(b)
-            })
-            .collect();
-        let vals = ch
-            .pyramid
-            .sample(w, h, cpp, &|c, r| Some((cols[c]?, rows[r]?)));
-        return (vals, xs, ys);
+impl LayerKey {
+    /// True when `other` differs from this key in the viewport alone.
+    fn differs_only_in_view(&self, other: &LayerKey) -> bool {
+        let mut moved = other.clone();
+        moved.view = self.view;
+        moved == *self
     }
-    let vals = ch.pyramid.sample(w, h, cpp, &|c, r| {
-        let (n, b) = frame
-            .from_frame(FramePoint {
-                x: xs2[c],
-                y: ys2[r],
-            })
-            .ok()?;
-        let fx = gx.fractional_index(gate.gate_for_density(n))?;
-        let fy = gy.fractional_index(b)?;
-        Some((fx, fy))
-    });
-    (vals, xs, ys)
-}
-
-/// Colour range (lo, hi) from a strided sample of `values`, clipping `clip_pct` % at each end;
-/// signed channels get a range symmetric about zero.
-pub fn colour_range(values: &Array2<f64>, clip_pct: f64, signed: bool, log: bool) -> (f64, f64) {
-    let stride = (values.len() / 200_000).max(1);
-    let mut v: Vec<f64> = values
-        .iter()
-        .step_by(stride)
-        .copied()
-        .filter(|x| x.is_finite() && (!log || *x > 0.0))
-        .collect();
-    if v.is_empty() {
-        return (0.0, 1.0);
-    }
-    // The two order statistics by selection (linear time), as a full sort would give them.
-    let rank = |p: f64| ((p / 100.0) * (v.len() - 1) as f64).round() as usize;
-    let (ra, rb) = (rank(clip_pct), rank(100.0 - clip_pct));
-    let (r_lo, r_hi) = (ra.min(rb), ra.max(rb));
-    let (_, &mut a, upper) = v.select_nth_unstable_by(r_lo, f64::total_cmp);
-    let b = if r_hi == r_lo {
-        a
-    } else {
-        *upper
-            .select_nth_unstable_by(r_hi - r_lo - 1, f64::total_cmp)
-            .1
-    };
-    let (mut lo, mut hi) = if ra <= rb { (a, b) } else { (b, a) };
-    if signed && !log {
-        let m = lo.abs().max(hi.abs());
-        lo = -m;
-        hi = m;
-    }
-    if !(hi > lo) {
-        let d = if lo == 0.0 { 1.0 } else { lo.abs() * 0.5 };
-        return (lo - d, lo + d);
-    }
-    (lo, hi)
 }
 
 fn family_style(f: Family) -> LineStyle {
@@ -530,35 +428,6 @@ fn cut_panel(c: &Cut) -> Option<Panel> {
     Some(p)
 }
 
-/// The heat map of the state at `w`×`h` samples with its resolved colours.
-pub fn heat_of(s: &ViewState, w: usize, h: usize) -> HeatMap {
-    let (values, xs, ys) = sample_view(s, w.max(2), h.max(2));
-    let fx = x_axis_unit(s.frame).1;
-    let vf = s.channel.label().1;
-    let values = values.mapv(|v| v * vf);
-    let log = s.scale == ScaleKind::Log;
-    let (lo, hi) = colour_range(&values, s.clip_pct, s.channel.signed(), log);
-    let pal = &fanmark_core::palette::builtin()[s.palette % fanmark_core::palette::builtin().len()];
-    let colors: Vec<[u8; 3]> = (0..256).map(|i| pal.sample(i as f64 / 255.0)).collect();
-    let scale = match s.scale {
-        ScaleKind::Linear => ColorScale::Linear,
-        ScaleKind::Log => ColorScale::Log,
-        ScaleKind::SymLog => ColorScale::SymLog {
-            linear_threshold: (lo.abs().max(hi.abs()) / 30.0).max(1e-300),
-        },
-    };
-    HeatMap {
-        values,
-        x: xs.iter().map(|x| x * fx).collect(),
-        y: ys,
-        colors,
-        scale,
-        range: ValueRange::Fixed(lo, hi),
-        resample: Resample::Nearest,
-        missing: Some([40, 40, 40]),
-    }
-}
-
 /// The figure of the state for a window of `w`×`h` physical px (the status line excluded),
 /// heat map sampled at `samples` (columns, rows). Pure.
 pub fn figure_of(s: &ViewState, w: u32, h: u32, samples: (usize, usize)) -> Figure {
@@ -778,6 +647,9 @@ pub struct Renderer {
     overlay: Option<Overlay>,
     /// Heat-map layers computed (for checks and benchmarks).
     pub layers_made: usize,
+    /// Heat-map samplings that moved the last samples after a pan instead of sampling the
+    /// whole view (for checks and benchmarks).
+    pub heat_reused: usize,
     /// Overlay layers drawn (for checks and benchmarks).
     pub overlays_made: usize,
 }
@@ -923,14 +795,30 @@ impl Renderer {
         Ok(Rendered { pixmap: pm, plot })
     }
 
-    /// Make sure the heat-map samples of `s` are kept; their key.
+    /// Make sure the heat-map samples of `s` are kept; their key. After a pan by whole samples
+    /// the kept samples are moved and only what came into view is sampled.
     fn heat_key(&mut self, s: &ViewState) -> LayerKey {
         let key = heat_key_of(s);
         if !matches!(&self.heat, Some((k, _)) if *k == key) {
             let (w, h) = (key.size.0 as usize, key.size.1 as usize);
-            self.heat = Some((key.clone(), heat_of(s, w.min(4096), h.min(4096))));
+            let (w, h) = (w.min(4096), h.min(4096));
+            let heat = match self.heat.take() {
+                Some((k, old)) if k.differs_only_in_view(&key) => {
+                    let (heat, reused) = heat_after_pan(s, &k.view, old, w, h);
+                    self.heat_reused += reused as usize;
+                    heat
+                }
+                _ => heat_of(s, w, h),
+            };
+            self.heat = Some((key.clone(), heat));
         }
         key
+    }
+
+    /// Forget the kept heat-map samples, so that the next frame samples the whole view afresh
+    /// (as before pans reused them; for benchmarks and checks).
+    pub fn forget_heat_samples(&mut self) {
+        self.heat = None;
     }
 
     fn make_base(&mut self, s: &ViewState, w: u32, h: u32, key: BaseKey) -> Result<Base> {

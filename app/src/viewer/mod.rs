@@ -5,6 +5,7 @@
 pub mod data;
 pub mod draw;
 pub mod export;
+pub mod heat;
 pub mod keys;
 pub mod layers;
 pub mod lod;

@@ -594,7 +594,7 @@ fn sampled_view_equals_interpolating_the_map_at_each_sample() {
         let mut s = state();
         s.apply(Action::SetFrame(k));
         s.apply(Action::ZoomAt(600.0, 400.0, 4.0));
-        let (vals, xs, ys) = super::draw::sample_view(&s, 60, 40);
+        let (vals, xs, ys) = super::heat::sample_view(&s, 60, 40);
         let frame = s.core_frame();
         let mut compared = 0;
         for (r, &y) in ys.iter().enumerate() {
