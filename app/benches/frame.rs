@@ -186,7 +186,7 @@ fn dense_map() {
         s.apply(Action::PanBy(d, 0.0));
     };
     r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
-    let interim = frames_with(&mut r, &mut s, 60, drag, Some(Reuse::Shifted));
+    let interim = frames_with(&mut r, &mut s, 60, drag, Some(Reuse::Interim));
     report("(b′) pan, interim: cached layers moved", interim);
     let (p0, p1) = (s.plot, s.plot);
     let overlay = frames(&mut r, &mut s, 60, |s, i| {
@@ -257,7 +257,7 @@ fn huge_map() {
     r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
     report(
         "full view, panning, interim",
-        frames_with(&mut r, &mut s, 40, pan, Some(Reuse::Shifted)),
+        frames_with(&mut r, &mut s, 40, pan, Some(Reuse::Interim)),
     );
     let zoom = frames(&mut r, &mut s, 20, |s, i| {
         s.apply(Action::Zoom(if i < 10 { 1.6 } else { 1.0 / 1.6 }));

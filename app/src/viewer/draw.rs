@@ -7,6 +7,7 @@
 
 use super::data::ChannelChoice;
 use super::heat::{heat_after_pan, heat_of};
+use super::interim::{scale_region, PixelMap};
 use super::keys::help_lines;
 use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
@@ -652,6 +653,25 @@ pub struct Renderer {
     pub heat_reused: usize,
     /// Overlay layers drawn (for checks and benchmarks).
     pub overlays_made: usize,
+    /// Base layers drawn.
+    bases_made: usize,
+    /// The last settled plot (base with the overlay laid over it) that scaled interim frames
+    /// resample, with the (bases, overlays) counts it was made at.
+    settled_plot: Option<((usize, usize), Pixmap)>,
+}
+
+/// Everything the kept overlay of `s` in the plot `g` depends on apart from the viewport.
+fn overlay_content(s: &ViewState, g: &PlotGeometry) -> OverlayContent {
+    OverlayContent {
+        frame: s.frame,
+        overlays: s.overlays.clone(),
+        work: s.work.clone(),
+        data: Arc::as_ptr(&s.data) as usize,
+        lines: Arc::as_ptr(&s.lines) as usize,
+        rect: g.rect,
+        scale: g.scale,
+        pixels: g.pixels,
+    }
 }
 
 /// A rendered frame.
@@ -667,11 +687,30 @@ pub struct Rendered {
 pub enum Reuse {
     /// Only when it was drawn for exactly this state (every settled frame).
     Exact,
-    /// Also when only the viewport moved without changing its size: the last heat map and
-    /// overlay are shown moved by the pan, the axes as they were (an interim frame while a
-    /// drag goes on; what comes into view and the new ticks appear when the drag pauses and a
-    /// settled frame is drawn).
-    Shifted,
+    /// Also when only the viewport changed: the last settled heat map and overlay are shown
+    /// moved by a pan (whole pixels) or scaled by a zoom (nearest neighbour, about the point
+    /// the zoom keeps), the axes as they were (an interim frame while a drag or the wheel goes
+    /// on; what comes into view and the new ticks appear when the motion pauses and a settled
+    /// frame is drawn). See [`super::interim`].
+    Interim,
+}
+
+/// How an interim frame shows the last settled plot in the new view.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Motion {
+    /// Moved by whole window pixels (a pan).
+    Shift((i64, i64)),
+    /// Scaled through a pixel map (a zoom).
+    Scale(PixelMap),
+}
+
+/// How the plot `g` showing `old` is shown for `new`: a shift when the view kept its size,
+/// a scaling otherwise.
+fn view_motion(old: &Viewport, new: &Viewport, g: &PlotGeometry) -> Option<Motion> {
+    match view_shift(old, new, g) {
+        Some(d) => Some(Motion::Shift(d)),
+        None => PixelMap::between(old, new, g.pixels).map(Motion::Scale),
+    }
 }
 
 impl Renderer {
@@ -718,37 +757,58 @@ impl Renderer {
             dpi_scale: s.dpi_scale,
             cut: cut_of(s),
         };
-        // An interim frame may show the last base with its plot moved by the pan.
-        let base_shift = self.base.as_ref().and_then(|b| {
+        // An interim frame may show the last base with its plot moved by a pan or scaled by a
+        // zoom; a scaled one also needs the overlay drawn for the base's own view.
+        let motion = self.base.as_ref().and_then(|b| {
             let g = b.plot.as_ref()?;
             let mut moved = base_key.clone();
             moved.heat.view = b.key.heat.view;
-            (reuse == Reuse::Shifted && b.key != base_key && b.key == moved)
-                .then(|| view_shift(&b.key.heat.view, &s.view, g))
-                .flatten()
+            if reuse != Reuse::Interim || b.key == base_key || b.key != moved {
+                return None;
+            }
+            match view_motion(&b.key.heat.view, &s.view, g)? {
+                Motion::Scale(_)
+                    if !matches!(&self.overlay, Some(o)
+                        if o.view == b.key.heat.view
+                            && o.content == overlay_content(s, g)) =>
+                {
+                    None
+                }
+                m => Some(m),
+            }
         });
-        if base_shift.is_none() && !matches!(&self.base, Some(b) if b.key == base_key) {
+        if motion.is_none() && !matches!(&self.base, Some(b) if b.key == base_key) {
             let _ = self.heat_key(s);
             self.base = Some(self.make_base(s, w, h, base_key)?);
+            self.bases_made += 1;
         }
         let Some(base) = &self.base else {
             unreachable!("the base layer was just stored")
         };
         let mut pm = base.pixmap.clone();
-        if let (Some(d), Some(g)) = (base_shift, &base.plot) {
-            shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
+        match (motion, &base.plot) {
+            (Some(Motion::Shift(d)), Some(g)) => {
+                shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
+            }
+            (Some(Motion::Scale(m)), Some(g)) => {
+                // The settled plot (base and overlay) once per settled frame, then scaled.
+                let made = (self.bases_made, self.overlays_made);
+                if !matches!(&self.settled_plot, Some((k, _)) if *k == made) {
+                    let mut plot = base.pixmap.clone();
+                    if let Some(o) = &self.overlay {
+                        o.layer.composite(&mut plot, (0, 0), g.pixels);
+                    }
+                    self.settled_plot = Some((made, plot));
+                }
+                if let Some((_, plot)) = &self.settled_plot {
+                    scale_region(&mut pm, plot, g.pixels, &m, MISSING_RGBA);
+                }
+            }
+            _ => {}
         }
         if let Some(g) = &base.plot {
-            let content = OverlayContent {
-                frame: s.frame,
-                overlays: s.overlays.clone(),
-                work: s.work.clone(),
-                data: Arc::as_ptr(&s.data) as usize,
-                lines: Arc::as_ptr(&s.lines) as usize,
-                rect: g.rect,
-                scale: g.scale,
-                pixels: g.pixels,
-            };
+            let content = overlay_content(s, g);
+            let scaled = matches!(motion, Some(Motion::Scale(_)));
             let shift = self.overlay.as_ref().and_then(|o| {
                 if o.content != content {
                     return None;
@@ -756,10 +816,12 @@ impl Renderer {
                 if o.view == s.view {
                     return Some((0, 0));
                 }
-                (reuse == Reuse::Shifted)
+                (reuse == Reuse::Interim)
                     .then(|| view_shift(&o.view, &s.view, g))
                     .flatten()
             });
+            // A scaled interim frame has its overlay in the scaled plot already.
+            let shift = if scaled { Some((0, 0)) } else { shift };
             let shift = match shift {
                 Some(d) => d,
                 None => {
@@ -776,7 +838,7 @@ impl Renderer {
                     (0, 0)
                 }
             };
-            if let Some(o) = &self.overlay {
+            if let (Some(o), false) = (&self.overlay, scaled) {
                 o.layer.composite(&mut pm, shift, g.pixels);
             }
             let mut masks = Vec::new();

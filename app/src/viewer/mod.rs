@@ -6,6 +6,7 @@ pub mod data;
 pub mod draw;
 pub mod export;
 pub mod heat;
+pub mod interim;
 pub mod keys;
 pub mod layers;
 pub mod lod;
