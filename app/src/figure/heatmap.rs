@@ -49,7 +49,7 @@ impl ColorMapping {
 
     /// Colour-table index 0…255 of `v`.
     pub fn index(&self, v: f64) -> Option<u8> {
-        self.position(v).map(|t| (t * 255.0).round() as u8)
+        self.position(v).map(table_index)
     }
 
     /// [`Self::index`] with the scale's ends transformed once, for use per pixel (same values).
@@ -60,8 +60,24 @@ impl ColorMapping {
             if !f.is_finite() {
                 return None;
             }
-            Some((((f - a) / (b - a)).clamp(0.0, 1.0) * 255.0).round() as u8)
+            Some(table_index(((f - a) / (b - a)).clamp(0.0, 1.0)))
         }
+    }
+}
+
+/// The colour-table index of position `t` ∈ [0, 1]: t · 255 rounded as `f64::round` does.
+fn table_index(t: f64) -> u8 {
+    round_to_u8(t * 255.0)
+}
+
+/// `x` ∈ [0, 255] rounded half away from zero, as `f64::round` gives it, without the library
+/// call: for x ≥ ½, x + ½ never rounds up past an integer, so truncating it rounds; below ½
+/// (where x + ½ can round up to 1) the answer is 0.
+fn round_to_u8(x: f64) -> u8 {
+    if x < 0.5 {
+        0
+    } else {
+        (x + 0.5) as u8
     }
 }
 
@@ -392,6 +408,31 @@ mod tests {
         assert!((p + m - 1.0).abs() < 1e-12);
         // ln(1+10)/ln(1+100) of the half range above the middle.
         assert!((p - (0.5 + 0.5 * 11f64.ln() / 101f64.ln())).abs() < 1e-12);
+    }
+
+    #[test]
+    fn table_index_rounds_as_f64_round_does() {
+        // Every half-way point and its float neighbours, and a dense sweep of [0, 1].
+        // Positive floats two units in the last place either side of `x`, and `x`.
+        let around =
+            |x: f64| (-2i64..=2).map(move |d| f64::from_bits((x.to_bits() as i64 + d) as u64));
+        let mut ts: Vec<f64> = (0..=255)
+            .flat_map(|k| around((k as f64 + 0.5) / 255.0))
+            .collect();
+        ts.extend((0..=100_000).map(|i| i as f64 / 100_000.0));
+        ts.extend([0.0, 1.0]);
+        // The largest float below ½, where x + ½ rounds up to 1, and its neighbours.
+        for x in around(0.49999999999999994) {
+            assert_eq!(round_to_u8(x), x.round() as u8, "x = {x:e}");
+        }
+        assert_eq!(round_to_u8(0.49999999999999994), 0);
+        let mut halves = 0;
+        for t in ts.into_iter().map(|t| t.clamp(0.0, 1.0)) {
+            let want = (t * 255.0).round() as u8;
+            assert_eq!(table_index(t), want, "t = {t:e}");
+            halves += ((t * 255.0).fract() == 0.5) as usize;
+        }
+        assert!(halves > 100, "{halves} exact half-way points checked");
     }
 
     #[test]
