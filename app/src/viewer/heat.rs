@@ -323,7 +323,10 @@ mod tests {
                 let v = fresh.values.as_slice().unwrap()[i];
                 let t = m.position(v).unwrap() * 255.0;
                 let off_edge = (t - t.floor() - 0.5).abs();
-                assert!(off_edge < 1e-6, "{what}: pixel {i} {a:?} vs {b:?} (value {v})");
+                assert!(
+                    off_edge < 1e-6,
+                    "{what}: pixel {i} {a:?} vs {b:?} (value {v})"
+                );
             }
         }
         finite
@@ -338,13 +341,22 @@ mod tests {
             let mut view = s.view;
             let mut reused = 0;
             // Right, left-and-up, down, a large jump, diagonal, and back past the start.
-            for (dx, dy) in [(7.0, 0.0), (-3.0, 5.0), (0.0, -11.0), (250.0, 0.0), (-9.0, 4.0)]
-                .into_iter()
-                .chain([(-240.0, -2.0), (1.0, 1.0)])
+            for (dx, dy) in [
+                (7.0, 0.0),
+                (-3.0, 5.0),
+                (0.0, -11.0),
+                (250.0, 0.0),
+                (-9.0, 4.0),
+            ]
+            .into_iter()
+            .chain([(-240.0, -2.0), (1.0, 1.0)])
             {
                 s.apply(Action::PanBy(dx, dy));
                 let (next, moved) = heat_after_pan(&s, &view, heat, w, h);
-                assert!(moved, "{frame:?}: a pan by ({dx}, {dy}) px reuses the samples");
+                assert!(
+                    moved,
+                    "{frame:?}: a pan by ({dx}, {dy}) px reuses the samples"
+                );
                 reused += 1;
                 let finite = assert_same_heat(&next, &heat_of(&s, w, h), &format!("{frame:?}"));
                 assert!(finite > w * h / 4, "{frame:?}: {finite} samples with data");

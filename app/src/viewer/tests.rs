@@ -726,9 +726,8 @@ fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
     let made = (r.layers_made, r.overlays_made);
     let px = |pm: &tiny_skia::Pixmap, x: i64, y: i64| pm.pixel(x as u32, y as u32).unwrap();
     // Inside the plot, clear of the frame drawn on its edge.
-    let inner = |x: f64, y: f64| {
-        x >= p.x0 + 3.0 && x < p.x1 - 3.0 && y >= p.y0 + 3.0 && y < p.y1 - 3.0
-    };
+    let inner =
+        |x: f64, y: f64| x >= p.x0 + 3.0 && x < p.x1 - 3.0 && y >= p.y0 + 3.0 && y < p.y1 - 3.0;
     let (cx, cy) = (p.x0 + 0.37 * (p.x1 - p.x0), p.y0 + 0.61 * (p.y1 - p.y0));
     // Two quick notches in, then one out: each interim frame scales the settled picture by the
     // zoom so far, about the cursor: window pixel q shows what the settled frame had at
@@ -738,7 +737,11 @@ fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
         s.apply(Action::ZoomAt(cx, cy, f));
         zoom *= f;
         let interim = r.render_with(&s, w, h, Reuse::Interim).unwrap();
-        assert_eq!((r.layers_made, r.overlays_made), made, "nothing drawn afresh");
+        assert_eq!(
+            (r.layers_made, r.overlays_made),
+            made,
+            "nothing drawn afresh"
+        );
         let (mut same, mut missing) = (0, 0);
         for y in (p.y0 as i64..p.y1 as i64).step_by(7) {
             for x in (p.x0 as i64..p.x1 as i64).step_by(5) {
@@ -758,7 +761,11 @@ fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
                     same += 1;
                 } else if !(sx >= p.x0 && sx < p.x1 && sy >= p.y0 && sy < p.y1) {
                     // Zoomed out past what the settled frame showed: the missing-data colour.
-                    assert_eq!((got.red(), got.green(), got.blue()), (40, 40, 40), "({x}, {y})");
+                    assert_eq!(
+                        (got.red(), got.green(), got.blue()),
+                        (40, 40, 40),
+                        "({x}, {y})"
+                    );
                     missing += 1;
                 }
             }

@@ -339,10 +339,13 @@ impl ApplicationHandler for App {
                 s.window.request_redraw();
             }
         }
-        let wake = [self.changed_at.map(|t| t + AUTOSAVE_DELAY), self.settle.due()]
-            .into_iter()
-            .flatten()
-            .min();
+        let wake = [
+            self.changed_at.map(|t| t + AUTOSAVE_DELAY),
+            self.settle.due(),
+        ]
+        .into_iter()
+        .flatten()
+        .min();
         match wake {
             Some(t) => el.set_control_flow(ControlFlow::WaitUntil(t)),
             None => el.set_control_flow(ControlFlow::Wait),
