@@ -6,7 +6,8 @@
 //!    indexer's states with their labels and twenty user labels: (a) full redraw with empty
 //!    caches, (b) settled pan frames with the heat map sampled afresh every frame (as before
 //!    pans reused samples) and (b1) with the kept samples moved and only the exposed strips
-//!    sampled (axes and overlay drawn afresh in both), (b′) interim frames of a drag (the last
+//!    sampled (axes and overlay drawn afresh in both; the two alternate frame by frame, so both
+//!    see the same machine load), (b′) interim frames of a drag (the last
 //!    heat map and overlay moved by the pan, what a window shows until the drag pauses),
 //!    (w) wheel zoom frames drawn settled, notch by notch (what the window drew before), and
 //!    (w′) wheel zoom interim frames (the settled picture scaled about the cursor), (c) pointer
@@ -116,20 +117,25 @@ fn frames(
     frames_with(r, s, n, step, None)
 }
 
-/// [`frames`] with the kept heat-map samples forgotten before each frame (untimed), so that
-/// every frame samples the whole view as settled pans did before they reused samples.
-fn frames_sampled_afresh(
+/// Settled pan frames, alternately with the kept heat-map samples forgotten first (untimed) so
+/// that the frame samples the whole view, as settled pans did before they reused samples, and
+/// with the samples kept and moved: the two sets of times, (afresh, moved), taken under the
+/// same machine load. `step` pans before each frame.
+fn pans_afresh_and_moved(
     r: &mut Renderer,
     s: &mut ViewState,
     n: usize,
     mut step: impl FnMut(&mut ViewState, usize),
-) -> Vec<f64> {
-    (0..n)
-        .flat_map(|i| {
+) -> (Vec<f64>, Vec<f64>) {
+    let (mut afresh, mut moved) = (Vec::new(), Vec::new());
+    for i in 0..2 * n {
+        if i % 2 == 0 {
             r.forget_heat_samples();
-            frames_with(r, s, 1, |s, _| step(s, i), None)
-        })
-        .collect()
+        }
+        let t = frames_with(r, s, 1, |s, _| step(s, i / 2), None);
+        if i % 2 == 0 { &mut afresh } else { &mut moved }.extend(t);
+    }
+    (afresh, moved)
 }
 
 /// Time `frames` renders, calling `step` on the state before each; with `reuse` each frame is
@@ -221,10 +227,10 @@ fn dense_map() {
         let d = if (i / 15) % 2 == 0 { 7.0 } else { -7.0 };
         s.apply(Action::PanBy(d, 0.0));
     };
-    let fresh = frames_sampled_afresh(&mut r, &mut s, 60, pan);
-    report("(b) pan, settled, heat map sampled afresh", fresh);
     let before = r.heat_reused;
-    let moved = frames(&mut r, &mut s, 60, pan);
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 60, pan);
+    println!("  settled pans, alternately sampling afresh and moving the kept samples:");
+    report("(b) pan, settled, heat map sampled afresh", fresh);
     report("(b1) pan, settled, heat samples moved", moved);
     println!(
         "  settled pans that moved the kept samples: {} of 60",
@@ -316,15 +322,10 @@ fn huge_map() {
         peak_rss_mb()
     );
     reset_peak_rss();
-    report(
-        "full view, panning, settled, sampled afresh",
-        frames_sampled_afresh(&mut r, &mut s, 40, pan),
-    );
     let before = r.heat_reused;
-    report(
-        "full view, panning, settled, samples moved",
-        frames(&mut r, &mut s, 40, pan),
-    );
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 40, pan);
+    report("full view, panning, settled, sampled afresh", fresh);
+    report("full view, panning, settled, samples moved", moved);
     println!(
         "  ({} of 40 moved the kept samples)",
         r.heat_reused - before
@@ -347,15 +348,10 @@ fn huge_map() {
         s.view.y1 - s.view.y0
     );
     r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
-    report(
-        "zoomed in ×110 (level 0), panning, settled, afresh",
-        frames_sampled_afresh(&mut r, &mut s, 40, pan),
-    );
     let before = r.heat_reused;
-    report(
-        "zoomed in ×110 (level 0), panning, settled, moved",
-        frames(&mut r, &mut s, 40, pan),
-    );
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 40, pan);
+    report("zoomed in ×110 (level 0), panning, settled, afresh", fresh);
+    report("zoomed in ×110 (level 0), panning, settled, moved", moved);
     println!(
         "  ({} of 40 moved the kept samples)",
         r.heat_reused - before
