@@ -7,7 +7,7 @@
 
 use super::data::ChannelChoice;
 use super::heat::{heat_after_pan, heat_of};
-use super::interim::{scale_region, PixelMap};
+use super::interim::{scale_region, shift_region, PixelMap};
 use super::keys::help_lines;
 use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
@@ -945,33 +945,6 @@ fn heat_key_of(s: &ViewState) -> LayerKey {
         clip_pct: s.clip_pct,
         view: s.view,
         size: (plot_w as u32, plot_h as u32),
-    }
-}
-
-/// Fill the pixel rectangle `r` of `dst` with the same rectangle of `src` moved by `d` px;
-/// where the moved picture does not reach, `fill`.
-fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64), fill: [u8; 4]) {
-    let (w, h) = (dst.width() as i64, dst.height() as i64);
-    let (x0, y0) = (r.0.max(0), r.1.max(0));
-    let (x1, y1) = (r.2.min(w), r.3.min(h));
-    let stride = w as usize * 4;
-    let sd = src.data();
-    for (y, row) in dst.data_mut().chunks_exact_mut(stride).enumerate() {
-        let y = y as i64;
-        if y < y0 || y >= y1 {
-            continue;
-        }
-        let sy = y - d.1;
-        for x in x0..x1 {
-            let sx = x - d.0;
-            let px = if sy >= y0 && sy < y1 && sx >= x0 && sx < x1 {
-                let i = (sy as usize * stride) + sx as usize * 4;
-                [sd[i], sd[i + 1], sd[i + 2], sd[i + 3]]
-            } else {
-                fill
-            };
-            row[x as usize * 4..x as usize * 4 + 4].copy_from_slice(&px);
-        }
     }
 }
 

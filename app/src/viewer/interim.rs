@@ -2,7 +2,7 @@
 //! the last settled picture moved (whole pixels) or scaled about the cursor (nearest neighbour)
 //! instead of drawing afresh, and draws a settled frame once the motion pauses. This module holds
 //! the pixel mapping of a zoom, the nearest-neighbour resampling of the plot, and [`Settle`], the
-//! clock that decides between interim and settled frames.
+//! clock that decides between interim and settled frames; [`shift_region`] moves the plot of a pan.
 
 use super::draw::Reuse;
 use super::layers::PixelRect;
@@ -91,6 +91,47 @@ pub fn scale_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, m: &PixelMap, 
                     None => px.copy_from_slice(&fill),
                 }
             }
+        });
+}
+
+/// Fill the pixel rectangle `r` of `dst` with the same rectangle of `src` (a picture of the same
+/// window) moved by `d` px; where the moved picture does not reach, `fill`. Rows in parallel,
+/// each row's kept run copied in one piece.
+pub fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64), fill: [u8; 4]) {
+    let (w, h) = (dst.width() as i64, dst.height() as i64);
+    if src.width() != dst.width() || src.height() != dst.height() {
+        return;
+    }
+    let (x0, y0, x1, y1) = (r.0.max(0), r.1.max(0), r.2.min(w), r.3.min(h));
+    if x0 >= x1 || y0 >= y1 {
+        return;
+    }
+    // Destination columns [k0, k1) come from source columns [k0 − d.0, k1 − d.0) inside r.
+    let (k0, k1) = ((x0 + d.0).max(x0), (x1 + d.0).min(x1));
+    let stride = w as usize * 4;
+    let sd = src.data();
+    let fill_px = |px: &mut [u8]| {
+        for p in px.chunks_exact_mut(4) {
+            p.copy_from_slice(&fill);
+        }
+    };
+    dst.data_mut()
+        .par_chunks_mut(stride)
+        .enumerate()
+        .skip(y0 as usize)
+        .take((y1 - y0) as usize)
+        .for_each(|(y, row)| {
+            let out = &mut row[x0 as usize * 4..x1 as usize * 4];
+            let sy = y as i64 - d.1;
+            if sy < y0 || sy >= y1 || k0 >= k1 {
+                fill_px(out);
+                return;
+            }
+            let (a, b) = ((k0 - x0) as usize * 4, (k1 - x0) as usize * 4);
+            let s0 = sy as usize * stride + (k0 - d.0) as usize * 4;
+            out[a..b].copy_from_slice(&sd[s0..s0 + (b - a)]);
+            fill_px(&mut out[..a]);
+            fill_px(&mut out[b..]);
         });
 }
 
@@ -211,6 +252,36 @@ mod tests {
         // Outside the plot nothing changes.
         assert_eq!(px(&dst, 0, 0), [0, 0, 7, 255]);
         assert_eq!(px(&dst, 11, 9), [11, 9, 7, 255]);
+    }
+
+    #[test]
+    fn shifting_moves_the_plot_by_whole_pixels_and_fills_what_came_into_view() {
+        let mut src = Pixmap::new(12, 10).unwrap();
+        for (i, px) in src.data_mut().chunks_exact_mut(4).enumerate() {
+            px.copy_from_slice(&[(i % 12) as u8, (i / 12) as u8, 9, 255]);
+        }
+        let r = (2, 1, 10, 9);
+        let fill = [40, 40, 40, 255];
+        for d in [(3, -2), (-5, 1), (0, 0), (8, 0), (-1, 7), (0, -9)] {
+            let mut dst = src.clone();
+            shift_region(&mut dst, &src, r, d, fill);
+            for y in 0..10i64 {
+                for x in 0..12i64 {
+                    let c = dst.pixel(x as u32, y as u32).unwrap();
+                    let got = [c.red(), c.green(), c.blue(), c.alpha()];
+                    let inside = |x: i64, y: i64| (2..10).contains(&x) && (1..9).contains(&y);
+                    let (sx, sy) = (x - d.0, y - d.1);
+                    let want = if !inside(x, y) {
+                        [x as u8, y as u8, 9, 255]
+                    } else if inside(sx, sy) {
+                        [sx as u8, sy as u8, 9, 255]
+                    } else {
+                        fill
+                    };
+                    assert_eq!(got, want, "shift {d:?} at ({x}, {y})");
+                }
+            }
+        }
     }
 
     #[test]
