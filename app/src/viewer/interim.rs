@@ -1,8 +1,9 @@
-//! Interim frames: while a pan drag moves or wheel zoom events arrive quickly, the window shows
-//! the last settled picture moved (whole pixels) or scaled about the cursor (nearest neighbour)
-//! instead of drawing afresh, and draws a settled frame once the motion pauses. This module holds
-//! the pixel mapping of a zoom, the nearest-neighbour resampling of the plot, and [`Settle`], the
-//! clock that decides between interim and settled frames; [`shift_region`] moves the plot of a pan.
+//! Interim frames: while a pan drag moves, wheel zoom events arrive quickly or a zoom or pan key
+//! is held, the window shows the last settled picture moved (whole pixels) or scaled about the
+//! cursor (nearest neighbour) instead of drawing afresh, and draws a settled frame once the
+//! motion pauses. This module holds the pixel mapping of a zoom, the nearest-neighbour
+//! resampling of the plot, [`shift_region`] that moves the plot of a pan, and [`Settle`], the
+//! clock that decides between interim and settled frames.
 
 use super::draw::Reuse;
 use super::layers::PixelRect;
@@ -140,12 +141,12 @@ pub fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64),
 pub enum Motion {
     /// A pan drag: interim while the drag goes on and moves.
     Pan,
-    /// Wheel zoom: interim until the wheel pauses.
-    Wheel,
+    /// Wheel notches or a held zoom or pan key: interim until they pause.
+    Steps,
 }
 
-/// The window's choice between interim and settled frames: each pan move or wheel event puts
-/// off the settled frame by [`SETTLE_DELAY`].
+/// The window's choice between interim and settled frames: each pan move, wheel event or
+/// repeat of a held zoom or pan key puts off the settled frame by [`SETTLE_DELAY`].
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
 pub struct Settle {
     /// The last motion and when its settled frame is due.
@@ -153,7 +154,7 @@ pub struct Settle {
 }
 
 impl Settle {
-    /// A pan move or a wheel event happened at `now`.
+    /// A pan move, a wheel event or a key repeat happened at `now`.
     pub fn moved(&mut self, motion: Motion, now: Instant) {
         self.pending = Some((motion, now + SETTLE_DELAY));
     }
@@ -162,7 +163,7 @@ impl Settle {
     /// drag moves (a released drag settles at once).
     pub fn reuse(&self, now: Instant, panning: bool) -> Reuse {
         match self.pending {
-            Some((m, due)) if now < due && (panning || m == Motion::Wheel) => Reuse::Interim,
+            Some((m, due)) if now < due && (panning || m == Motion::Steps) => Reuse::Interim,
             _ => Reuse::Exact,
         }
     }
@@ -290,10 +291,10 @@ mod tests {
         let ms = Duration::from_millis;
         let mut s = Settle::default();
         assert_eq!(s.reuse(t0, false), Reuse::Exact);
-        s.moved(Motion::Wheel, t0);
+        s.moved(Motion::Steps, t0);
         assert_eq!(s.reuse(t0 + ms(30), false), Reuse::Interim);
         // Another notch 100 ms later puts the settled frame off again.
-        s.moved(Motion::Wheel, t0 + ms(100));
+        s.moved(Motion::Steps, t0 + ms(100));
         assert_eq!(s.reuse(t0 + ms(180), false), Reuse::Interim);
         assert!(!s.settle_now(t0 + ms(180)));
         assert_eq!(s.due(), Some(t0 + ms(100) + SETTLE_DELAY));

@@ -302,7 +302,7 @@ impl ApplicationHandler for App {
                 };
                 if let Some((x, y)) = self.state.pointer {
                     // Quick notches show the last picture scaled until the wheel pauses.
-                    self.settle.moved(Motion::Wheel, Instant::now());
+                    self.settle.moved(Motion::Steps, Instant::now());
                     self.dispatch(Action::ZoomAt(x, y, 1.2f64.powf(lines)), el);
                 }
             }
@@ -316,6 +316,10 @@ impl ApplicationHandler for App {
                 if let Some(a) = action_for(k, self.mods.control_key(), &self.state.mode) {
                     if event.repeat && !repeat_allowed(&a, &self.state.mode) {
                         return;
+                    }
+                    // A held zoom or pan key: interim frames until it is let go.
+                    if event.repeat && matches!(a, Action::Zoom(_) | Action::PanBy(..)) {
+                        self.settle.moved(Motion::Steps, Instant::now());
                     }
                     self.dispatch(a, el);
                 }
