@@ -1,16 +1,23 @@
 //! Frame time of the viewer's draw path (the `Renderer` the window uses), printed as median and
-//! 95th percentile over many frames:
+//! 95th percentile over many frames, with the peak resident memory of each case (VmHWM, reset
+//! before each case through /proc/self/clear_refs where the kernel allows it):
 //!
 //! 1. a 1600 × 1000 window on a 4000 × 1000 synthetic moiré fan with every line family on, the
 //!    indexer's states with their labels and twenty user labels: (a) full redraw with empty
-//!    caches, (b) settled pan frames (heat map re-sampled, axes and overlay drawn afresh every
-//!    frame), (b′) interim frames of a drag (the last heat map and overlay moved by the pan,
-//!    what a window shows until the drag pauses), (c) pointer moves (cached base and overlay
-//!    layers composited, only the pointer's own items drawn);
+//!    caches, (b) settled pan frames with the heat map sampled afresh every frame (as before
+//!    pans reused samples) and (b1) with the kept samples moved and only the exposed strips
+//!    sampled (axes and overlay drawn afresh in both; the two alternate frame by frame, so both
+//!    see the same machine load), (b′) interim frames of a drag (the last
+//!    heat map and overlay moved by the pan, what a window shows until the drag pauses),
+//!    (w) wheel zoom frames drawn settled, notch by notch (what the window drew before), and
+//!    (w′) wheel zoom interim frames (the settled picture scaled about the cursor), (c) pointer
+//!    moves (cached base and overlay layers composited, only the pointer's own items drawn);
 //! 2. a 10 000 × 10 000 map (10⁸ points): time to build the level-of-detail pyramid, then frames
-//!    at the full view and zoomed in, panning.
+//!    at the full view and zoomed in, panning (settled with and without moved samples, interim),
+//!    and wheel zoom (settled and interim).
 //!
-//! Target: under 16 ms a frame for interaction (pointer moves and the frames of a drag). Ends with the peak resident memory (VmHWM).
+//! Target: under 16 ms a frame for interaction (pointer moves, the frames of a drag and of the
+//! wheel). Note the machine's load beside the numbers: frame times on a shared machine move with it.
 //!
 //! Run: `cargo bench -p fanmark --bench frame`.
 
@@ -78,7 +85,26 @@ fn report(what: &str, ms: Vec<f64>) {
     let n = ms.len();
     let (med, p95) = stats(ms);
     let verdict = if p95 < 16.0 { "under" } else { "OVER" };
-    println!("  {what:<44} median {med:6.2} ms   p95 {p95:6.2} ms   ({n} frames; {verdict} 16 ms)");
+    println!(
+        "  {what:<52} median {med:6.2} ms   p95 {p95:6.2} ms   ({n} frames; {verdict} 16 ms; peak {:.0} MB)",
+        peak_rss_mb()
+    );
+    reset_peak_rss();
+}
+
+/// Start a new peak-memory measurement: the kernel resets VmHWM to the current resident size
+/// when "5" is written to /proc/self/clear_refs (ignored where that is not allowed).
+fn reset_peak_rss() {
+    let _ = std::fs::write("/proc/self/clear_refs", "5");
+}
+
+/// Wheel notches about the plot point at (0.37, 0.61) of the plot: four in, four out, so the
+/// view comes back.
+fn wheel(s: &mut ViewState, i: usize) {
+    let p = s.plot;
+    let (x, y) = (p.x0 + 0.37 * (p.x1 - p.x0), p.y0 + 0.61 * (p.y1 - p.y0));
+    let f = if (i / 4) % 2 == 0 { 1.2 } else { 1.0 / 1.2 };
+    s.apply(Action::ZoomAt(x, y, f));
 }
 
 /// Time `frames` settled renders, calling `step` on the state before each.
@@ -89,6 +115,27 @@ fn frames(
     step: impl FnMut(&mut ViewState, usize),
 ) -> Vec<f64> {
     frames_with(r, s, n, step, None)
+}
+
+/// Settled pan frames, alternately with the kept heat-map samples forgotten first (untimed) so
+/// that the frame samples the whole view, as settled pans did before they reused samples, and
+/// with the samples kept and moved: the two sets of times, (afresh, moved), taken under the
+/// same machine load. `step` pans before each frame.
+fn pans_afresh_and_moved(
+    r: &mut Renderer,
+    s: &mut ViewState,
+    n: usize,
+    mut step: impl FnMut(&mut ViewState, usize),
+) -> (Vec<f64>, Vec<f64>) {
+    let (mut afresh, mut moved) = (Vec::new(), Vec::new());
+    for i in 0..2 * n {
+        if i % 2 == 0 {
+            r.forget_heat_samples();
+        }
+        let t = frames_with(r, s, 1, |s, _| step(s, i / 2), None);
+        if i % 2 == 0 { &mut afresh } else { &mut moved }.extend(t);
+    }
+    (afresh, moved)
 }
 
 /// Time `frames` renders, calling `step` on the state before each; with `reuse` each frame is
@@ -175,19 +222,39 @@ fn dense_map() {
         cold.extend(frames(&mut Renderer::default(), &mut s, 1, |_, _| {}));
     }
     report("(a) full redraw, empty caches", cold);
-    let pan = frames(&mut r, &mut s, 60, |s, i| {
+    reset_peak_rss();
+    let pan = |s: &mut ViewState, i: usize| {
         let d = if (i / 15) % 2 == 0 { 7.0 } else { -7.0 };
         s.apply(Action::PanBy(d, 0.0));
-    });
-    report("(b) pan, settled: everything redrawn", pan);
+    };
+    let before = r.heat_reused;
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 60, pan);
+    println!("  settled pans, alternately sampling afresh and moving the kept samples:");
+    report("(b) pan, settled, heat map sampled afresh", fresh);
+    report("(b1) pan, settled, heat samples moved", moved);
+    println!(
+        "  settled pans that moved the kept samples: {} of 60",
+        r.heat_reused - before
+    );
     // A drag: the first frame after a pause is settled, the rest are interim.
     let drag = |s: &mut ViewState, i: usize| {
         let d = if (i / 15) % 2 == 0 { 7.0 } else { -7.0 };
         s.apply(Action::PanBy(d, 0.0));
     };
     r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
-    let interim = frames_with(&mut r, &mut s, 60, drag, Some(Reuse::Shifted));
+    let interim = frames_with(&mut r, &mut s, 60, drag, Some(Reuse::Interim));
     report("(b′) pan, interim: cached layers moved", interim);
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    report(
+        "(w) wheel zoom, settled every notch",
+        frames(&mut r, &mut s, 40, wheel),
+    );
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    report(
+        "(w′) wheel zoom, interim: settled picture scaled",
+        frames_with(&mut r, &mut s, 40, wheel, Some(Reuse::Interim)),
+    );
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
     let (p0, p1) = (s.plot, s.plot);
     let overlay = frames(&mut r, &mut s, 60, |s, i| {
         let f = i as f64 / 60.0;
@@ -250,14 +317,23 @@ fn huge_map() {
             4.0 * if (i / 5) % 2 == 0 { 1.0 } else { -1.0 },
         ));
     };
-    report(
-        "full view, panning, settled",
-        frames(&mut r, &mut s, 40, pan),
+    println!(
+        "  peak resident memory while building (VmHWM): {:.0} MB",
+        peak_rss_mb()
+    );
+    reset_peak_rss();
+    let before = r.heat_reused;
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 40, pan);
+    report("full view, panning, settled, sampled afresh", fresh);
+    report("full view, panning, settled, samples moved", moved);
+    println!(
+        "  ({} of 40 moved the kept samples)",
+        r.heat_reused - before
     );
     r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
     report(
         "full view, panning, interim",
-        frames_with(&mut r, &mut s, 40, pan, Some(Reuse::Shifted)),
+        frames_with(&mut r, &mut s, 40, pan, Some(Reuse::Interim)),
     );
     let zoom = frames(&mut r, &mut s, 20, |s, i| {
         s.apply(Action::Zoom(if i < 10 { 1.6 } else { 1.0 / 1.6 }));
@@ -271,9 +347,24 @@ fn huge_map() {
         s.view.x1 - s.view.x0,
         s.view.y1 - s.view.y0
     );
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    let before = r.heat_reused;
+    let (fresh, moved) = pans_afresh_and_moved(&mut r, &mut s, 40, pan);
+    report("zoomed in ×110 (level 0), panning, settled, afresh", fresh);
+    report("zoomed in ×110 (level 0), panning, settled, moved", moved);
+    println!(
+        "  ({} of 40 moved the kept samples)",
+        r.heat_reused - before
+    );
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
     report(
-        "zoomed in ×110 (level 0), panning, settled",
-        frames(&mut r, &mut s, 40, pan),
+        "zoomed in, wheel zoom, settled every notch",
+        frames(&mut r, &mut s, 40, wheel),
+    );
+    r.render_settled(&mut s, WINDOW.0, WINDOW.1, 1.0).unwrap();
+    report(
+        "zoomed in, wheel zoom, interim",
+        frames_with(&mut r, &mut s, 40, wheel, Some(Reuse::Interim)),
     );
 }
 
@@ -281,5 +372,8 @@ fn main() {
     // `cargo bench` passes `--bench`; nothing to parse.
     dense_map();
     huge_map();
-    println!("peak resident memory (VmHWM): {:.0} MB", peak_rss_mb());
+    println!(
+        "peak resident memory since the last case (VmHWM): {:.0} MB",
+        peak_rss_mb()
+    );
 }

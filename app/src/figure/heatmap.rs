@@ -49,7 +49,7 @@ impl ColorMapping {
 
     /// Colour-table index 0…255 of `v`.
     pub fn index(&self, v: f64) -> Option<u8> {
-        self.position(v).map(|t| (t * 255.0).round() as u8)
+        self.position(v).map(table_index)
     }
 
     /// [`Self::index`] with the scale's ends transformed once, for use per pixel (same values).
@@ -60,8 +60,24 @@ impl ColorMapping {
             if !f.is_finite() {
                 return None;
             }
-            Some((((f - a) / (b - a)).clamp(0.0, 1.0) * 255.0).round() as u8)
+            Some(table_index(((f - a) / (b - a)).clamp(0.0, 1.0)))
         }
+    }
+}
+
+/// The colour-table index of position `t` ∈ [0, 1]: t · 255 rounded as `f64::round` does.
+fn table_index(t: f64) -> u8 {
+    round_to_u8(t * 255.0)
+}
+
+/// `x` ∈ [0, 255] rounded half away from zero, as `f64::round` gives it, without the library
+/// call: for x ≥ ½, x + ½ never rounds up past an integer, so truncating it rounds; below ½
+/// (where x + ½ can round up to 1) the answer is 0.
+fn round_to_u8(x: f64) -> u8 {
+    if x < 0.5 {
+        0
+    } else {
+        (x + 0.5) as u8
     }
 }
 
@@ -249,45 +265,71 @@ pub fn render_rgba(
     let xs = axis_samples(&h.x, (0..w).map(|i| at(x_edges, w, i)), h.resample);
     let ys = axis_samples(&h.y, (0..ht).map(|i| at(y_edges, ht, i)), h.resample);
     let missing = h.missing.map(|c| [c[0], c[1], c[2], 255]).unwrap_or([0; 4]);
-    let v = &h.values;
     let index = map.indexer();
-    // Rows are independent: drawn in parallel.
-    out.par_chunks_mut(w * 4)
-        .zip(ys.par_iter())
-        .for_each(|(row, ysample)| {
-            let Some((ya, yb, wy)) = *ysample else {
-                return;
-            };
-            for (c, xsample) in xs.iter().enumerate() {
-                let Some((xa, xb, wx)) = *xsample else {
-                    continue;
-                };
-                let q = [
-                    (v[[ya, xa]], (1.0 - wy) * (1.0 - wx)),
-                    (v[[ya, xb]], (1.0 - wy) * wx),
-                    (v[[yb, xa]], wy * (1.0 - wx)),
-                    (v[[yb, xb]], wy * wx),
-                ];
-                let value = if q.iter().all(|(val, _)| val.is_finite()) {
-                    q.iter().map(|(val, wt)| val * wt).sum()
-                } else {
-                    // Near missing data: the heaviest finite neighbour.
-                    q.iter()
-                        .filter(|(val, _)| val.is_finite())
-                        .max_by(|a, b| a.1.total_cmp(&b.1))
-                        .map(|(val, _)| *val)
-                        .unwrap_or(f64::NAN)
-                };
-                let px = match index(value) {
-                    Some(i) => {
-                        let col = h.colors[i as usize];
-                        [col[0], col[1], col[2], 255]
+    // The colour of each table index, opaque, looked up once per pixel.
+    let table: Vec<[u8; 4]> = h.colors.iter().map(|c| [c[0], c[1], c[2], 255]).collect();
+    let colour = |value: f64| match index(value) {
+        Some(i) => table.get(i as usize).copied().unwrap_or(missing),
+        None => missing,
+    };
+    // Row-major values, so that each output row reads its source rows as slices.
+    let v = h.values.as_standard_layout();
+    let Some(flat) = v.as_slice() else {
+        return out;
+    };
+    let nx = v.dim().1;
+    match h.resample {
+        Resample::Nearest => {
+            // Nearest: both bracketing points are the nearest one; its column is the same for
+            // every row.
+            let cols: Vec<Option<usize>> = xs.iter().map(|x| x.map(|(xa, _, _)| xa)).collect();
+            out.par_chunks_mut(w * 4)
+                .zip(ys.par_iter())
+                .for_each(|(row, ysample)| {
+                    let Some((ya, _, _)) = *ysample else {
+                        return;
+                    };
+                    let src = &flat[ya * nx..(ya + 1) * nx];
+                    for (px, col) in row.chunks_exact_mut(4).zip(&cols) {
+                        if let Some(c) = *col {
+                            px.copy_from_slice(&colour(src[c]));
+                        }
                     }
-                    None => missing,
-                };
-                row[c * 4..c * 4 + 4].copy_from_slice(&px);
-            }
-        });
+                });
+        }
+        Resample::Bilinear => {
+            out.par_chunks_mut(w * 4)
+                .zip(ys.par_iter())
+                .for_each(|(row, ysample)| {
+                    let Some((ya, yb, wy)) = *ysample else {
+                        return;
+                    };
+                    let (ra, rb) = (&flat[ya * nx..(ya + 1) * nx], &flat[yb * nx..(yb + 1) * nx]);
+                    for (px, xsample) in row.chunks_exact_mut(4).zip(&xs) {
+                        let Some((xa, xb, wx)) = *xsample else {
+                            continue;
+                        };
+                        let q = [
+                            (ra[xa], (1.0 - wy) * (1.0 - wx)),
+                            (ra[xb], (1.0 - wy) * wx),
+                            (rb[xa], wy * (1.0 - wx)),
+                            (rb[xb], wy * wx),
+                        ];
+                        let value = if q.iter().all(|(val, _)| val.is_finite()) {
+                            q.iter().map(|(val, wt)| val * wt).sum()
+                        } else {
+                            // Near missing data: the heaviest finite neighbour.
+                            q.iter()
+                                .filter(|(val, _)| val.is_finite())
+                                .max_by(|a, b| a.1.total_cmp(&b.1))
+                                .map(|(val, _)| *val)
+                                .unwrap_or(f64::NAN)
+                        };
+                        px.copy_from_slice(&colour(value));
+                    }
+                });
+        }
+    }
     out
 }
 
@@ -366,6 +408,31 @@ mod tests {
         assert!((p + m - 1.0).abs() < 1e-12);
         // ln(1+10)/ln(1+100) of the half range above the middle.
         assert!((p - (0.5 + 0.5 * 11f64.ln() / 101f64.ln())).abs() < 1e-12);
+    }
+
+    #[test]
+    fn table_index_rounds_as_f64_round_does() {
+        // Every half-way point and its float neighbours, and a dense sweep of [0, 1].
+        // Positive floats two units in the last place either side of `x`, and `x`.
+        let around =
+            |x: f64| (-2i64..=2).map(move |d| f64::from_bits((x.to_bits() as i64 + d) as u64));
+        let mut ts: Vec<f64> = (0..=255)
+            .flat_map(|k| around((k as f64 + 0.5) / 255.0))
+            .collect();
+        ts.extend((0..=100_000).map(|i| i as f64 / 100_000.0));
+        ts.extend([0.0, 1.0]);
+        // The largest float below ½, where x + ½ rounds up to 1, and its neighbours.
+        for x in around(0.49999999999999994) {
+            assert_eq!(round_to_u8(x), x.round() as u8, "x = {x:e}");
+        }
+        assert_eq!(round_to_u8(0.49999999999999994), 0);
+        let mut halves = 0;
+        for t in ts.into_iter().map(|t| t.clamp(0.0, 1.0)) {
+            let want = (t * 255.0).round() as u8;
+            assert_eq!(table_index(t), want, "t = {t:e}");
+            halves += ((t * 255.0).fract() == 0.5) as usize;
+        }
+        assert!(halves > 100, "{halves} exact half-way points checked");
     }
 
     #[test]

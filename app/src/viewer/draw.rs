@@ -6,6 +6,8 @@
 //! without caches, as the reference.
 
 use super::data::ChannelChoice;
+use super::heat::{heat_after_pan, heat_of};
+use super::interim::{scale_region, shift_region, PixelMap};
 use super::keys::help_lines;
 use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
@@ -15,12 +17,12 @@ use crate::figure::heatmap::ColorMapping;
 use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
 use crate::figure::raster::{clip_mask, draw_item, draw_list_with, heatmap_layer, pixel_rect};
 use crate::figure::scene::{
-    AxisSpec, ColorBar, ColorScale, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers,
-    Panel, Polyline, Resample, TextLabel, ValueRange,
+    AxisSpec, ColorBar, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers, Panel,
+    Polyline, TextLabel, ValueRange,
 };
 use crate::figure::text::glyph;
 use fanmark_core::constants::E_OVER_H;
-use fanmark_core::line::{Family, FramePoint, FrameRect, Line};
+use fanmark_core::line::{Family, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
 use std::sync::Arc;
@@ -32,7 +34,7 @@ pub const SCREEN_DPI: f64 = 96.0;
 pub const STATUS_PX: f64 = 22.0;
 
 /// Display unit of a frame's x axis: (label, SI value × factor = shown value).
-fn x_axis_unit(k: FrameKind) -> (&'static str, f64) {
+pub(super) fn x_axis_unit(k: FrameKind) -> (&'static str, f64) {
     match k {
         FrameKind::GateField => ("V_g (V)", 1.0),
         FrameKind::DensityField => ("n (10^{12} cm^{−2})", 1e-16),
@@ -60,116 +62,13 @@ pub struct LayerKey {
     size: (u32, u32),
 }
 
-/// Sample the channel over the viewport at `w`×`h` points (row 0 = bottom, y increasing).
-pub fn sample_view(s: &ViewState, w: usize, h: usize) -> (Array2<f64>, Vec<f64>, Vec<f64>) {
-    let v = s.view;
-    let xs: Vec<f64> = (0..w)
-        .map(|i| v.x0 + (i as f64 + 0.5) / w as f64 * (v.x1 - v.x0))
-        .collect();
-    let ys: Vec<f64> = (0..h)
-        .map(|i| v.y0 + (i as f64 + 0.5) / h as f64 * (v.y1 - v.y0))
-        .collect();
-    let Some(ch) = s.data.channel(s.channel) else {
-        return (Array2::from_elem((h, w), f64::NAN), xs, ys);
-    };
-    let frame = s.core_frame();
-    let (gx, gy) = (s.data.map.x(), s.data.map.y());
-    let gate = s.data.gate;
-    // Level-0 cells per output sample along the denser direction.
-    let (c0, _, _) = (gx.len() as f64, 0, 0);
-    let span_v = {
-        let a = frame.from_frame(FramePoint { x: v.x0, y: v.y1 });
-        let b = frame.from_frame(FramePoint { x: v.x1, y: v.y1 });
-        match (a, b) {
-            (Ok(a), Ok(b)) => (gate.gate_for_density(a.0) - gate.gate_for_density(b.0)).abs(),
-            _ => gx.max() - gx.min(),
-        }
-    };
-    let cells_x = span_v / (gx.max() - gx.min()).max(1e-300) * c0 / w as f64;
-    let cells_y = {
-        let b0 = frame.field_of_y(v.y0).unwrap_or(gy.min());
-        let b1 = frame.field_of_y(v.y1).unwrap_or(gy.max());
-        (b1 - b0).abs() / (gy.max() - gy.min()).max(1e-300) * gy.len() as f64 / h as f64
-    };
-    let cpp = cells_x.min(cells_y).max(1.0);
-    let (xs2, ys2) = (&xs, &ys);
-    if matches!(
-        s.frame,
-        FrameKind::GateField | FrameKind::DensityField | FrameKind::Wannier
-    ) {
-        // In these frames x fixes the density and y the field: look each up once per column
-        // and once per row instead of once per sample.
-        let ym = 0.5 * (v.y0 + v.y1);
-        let xm = 0.5 * (v.x0 + v.x1);
-        let cols: Vec<Option<f64>> = xs
-            .iter()
-            .map(|&x| {
-                let (n, _) = frame.from_frame(FramePoint { x, y: ym }).ok()?;
-                gx.fractional_index(gate.gate_for_density(n))
-            })
-            .collect();
-        let rows: Vec<Option<f64>> = ys
-            .iter()
-            .map(|&y| {
-                let (_, b) = frame.from_frame(FramePoint { x: xm, y }).ok()?;
-                gy.fractional_index(b)
-            })
-            .collect();
-        let vals = ch
-            .pyramid
-            .sample(w, h, cpp, &|c, r| Some((cols[c]?, rows[r]?)));
-        return (vals, xs, ys);
+impl LayerKey {
+    /// True when `other` differs from this key in the viewport alone.
+    fn differs_only_in_view(&self, other: &LayerKey) -> bool {
+        let mut moved = other.clone();
+        moved.view = self.view;
+        moved == *self
     }
-    let vals = ch.pyramid.sample(w, h, cpp, &|c, r| {
-        let (n, b) = frame
-            .from_frame(FramePoint {
-                x: xs2[c],
-                y: ys2[r],
-            })
-            .ok()?;
-        let fx = gx.fractional_index(gate.gate_for_density(n))?;
-        let fy = gy.fractional_index(b)?;
-        Some((fx, fy))
-    });
-    (vals, xs, ys)
-}
-
-/// Colour range (lo, hi) from a strided sample of `values`, clipping `clip_pct` % at each end;
-/// signed channels get a range symmetric about zero.
-pub fn colour_range(values: &Array2<f64>, clip_pct: f64, signed: bool, log: bool) -> (f64, f64) {
-    let stride = (values.len() / 200_000).max(1);
-    let mut v: Vec<f64> = values
-        .iter()
-        .step_by(stride)
-        .copied()
-        .filter(|x| x.is_finite() && (!log || *x > 0.0))
-        .collect();
-    if v.is_empty() {
-        return (0.0, 1.0);
-    }
-    // The two order statistics by selection (linear time), as a full sort would give them.
-    let rank = |p: f64| ((p / 100.0) * (v.len() - 1) as f64).round() as usize;
-    let (ra, rb) = (rank(clip_pct), rank(100.0 - clip_pct));
-    let (r_lo, r_hi) = (ra.min(rb), ra.max(rb));
-    let (_, &mut a, upper) = v.select_nth_unstable_by(r_lo, f64::total_cmp);
-    let b = if r_hi == r_lo {
-        a
-    } else {
-        *upper
-            .select_nth_unstable_by(r_hi - r_lo - 1, f64::total_cmp)
-            .1
-    };
-    let (mut lo, mut hi) = if ra <= rb { (a, b) } else { (b, a) };
-    if signed && !log {
-        let m = lo.abs().max(hi.abs());
-        lo = -m;
-        hi = m;
-    }
-    if !(hi > lo) {
-        let d = if lo == 0.0 { 1.0 } else { lo.abs() * 0.5 };
-        return (lo - d, lo + d);
-    }
-    (lo, hi)
 }
 
 fn family_style(f: Family) -> LineStyle {
@@ -530,35 +429,6 @@ fn cut_panel(c: &Cut) -> Option<Panel> {
     Some(p)
 }
 
-/// The heat map of the state at `w`×`h` samples with its resolved colours.
-pub fn heat_of(s: &ViewState, w: usize, h: usize) -> HeatMap {
-    let (values, xs, ys) = sample_view(s, w.max(2), h.max(2));
-    let fx = x_axis_unit(s.frame).1;
-    let vf = s.channel.label().1;
-    let values = values.mapv(|v| v * vf);
-    let log = s.scale == ScaleKind::Log;
-    let (lo, hi) = colour_range(&values, s.clip_pct, s.channel.signed(), log);
-    let pal = &fanmark_core::palette::builtin()[s.palette % fanmark_core::palette::builtin().len()];
-    let colors: Vec<[u8; 3]> = (0..256).map(|i| pal.sample(i as f64 / 255.0)).collect();
-    let scale = match s.scale {
-        ScaleKind::Linear => ColorScale::Linear,
-        ScaleKind::Log => ColorScale::Log,
-        ScaleKind::SymLog => ColorScale::SymLog {
-            linear_threshold: (lo.abs().max(hi.abs()) / 30.0).max(1e-300),
-        },
-    };
-    HeatMap {
-        values,
-        x: xs.iter().map(|x| x * fx).collect(),
-        y: ys,
-        colors,
-        scale,
-        range: ValueRange::Fixed(lo, hi),
-        resample: Resample::Nearest,
-        missing: Some([40, 40, 40]),
-    }
-}
-
 /// The figure of the state for a window of `w`×`h` physical px (the status line excluded),
 /// heat map sampled at `samples` (columns, rows). Pure.
 pub fn figure_of(s: &ViewState, w: u32, h: u32, samples: (usize, usize)) -> Figure {
@@ -778,8 +648,30 @@ pub struct Renderer {
     overlay: Option<Overlay>,
     /// Heat-map layers computed (for checks and benchmarks).
     pub layers_made: usize,
+    /// Heat-map samplings that moved the last samples after a pan instead of sampling the
+    /// whole view (for checks and benchmarks).
+    pub heat_reused: usize,
     /// Overlay layers drawn (for checks and benchmarks).
     pub overlays_made: usize,
+    /// Base layers drawn.
+    bases_made: usize,
+    /// The last settled plot (base with the overlay laid over it) that scaled interim frames
+    /// resample, with the (bases, overlays) counts it was made at.
+    settled_plot: Option<((usize, usize), Pixmap)>,
+}
+
+/// Everything the kept overlay of `s` in the plot `g` depends on apart from the viewport.
+fn overlay_content(s: &ViewState, g: &PlotGeometry) -> OverlayContent {
+    OverlayContent {
+        frame: s.frame,
+        overlays: s.overlays.clone(),
+        work: s.work.clone(),
+        data: Arc::as_ptr(&s.data) as usize,
+        lines: Arc::as_ptr(&s.lines) as usize,
+        rect: g.rect,
+        scale: g.scale,
+        pixels: g.pixels,
+    }
 }
 
 /// A rendered frame.
@@ -795,11 +687,30 @@ pub struct Rendered {
 pub enum Reuse {
     /// Only when it was drawn for exactly this state (every settled frame).
     Exact,
-    /// Also when only the viewport moved without changing its size: the last heat map and
-    /// overlay are shown moved by the pan, the axes as they were (an interim frame while a
-    /// drag goes on; what comes into view and the new ticks appear when the drag pauses and a
-    /// settled frame is drawn).
-    Shifted,
+    /// Also when only the viewport changed: the last settled heat map and overlay are shown
+    /// moved by a pan (whole pixels) or scaled by a zoom (nearest neighbour, about the point
+    /// the zoom keeps), the axes as they were (an interim frame while a drag or the wheel goes
+    /// on; what comes into view and the new ticks appear when the motion pauses and a settled
+    /// frame is drawn). See [`super::interim`].
+    Interim,
+}
+
+/// How an interim frame shows the last settled plot in the new view.
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Motion {
+    /// Moved by whole window pixels (a pan).
+    Shift((i64, i64)),
+    /// Scaled through a pixel map (a zoom).
+    Scale(PixelMap),
+}
+
+/// How the plot `g` showing `old` is shown for `new`: a shift when the view kept its size,
+/// a scaling otherwise.
+fn view_motion(old: &Viewport, new: &Viewport, g: &PlotGeometry) -> Option<Motion> {
+    match view_shift(old, new, g) {
+        Some(d) => Some(Motion::Shift(d)),
+        None => PixelMap::between(old, new, g.pixels).map(Motion::Scale),
+    }
 }
 
 impl Renderer {
@@ -846,37 +757,58 @@ impl Renderer {
             dpi_scale: s.dpi_scale,
             cut: cut_of(s),
         };
-        // An interim frame may show the last base with its plot moved by the pan.
-        let base_shift = self.base.as_ref().and_then(|b| {
+        // An interim frame may show the last base with its plot moved by a pan or scaled by a
+        // zoom; a scaled one also needs the overlay drawn for the base's own view.
+        let motion = self.base.as_ref().and_then(|b| {
             let g = b.plot.as_ref()?;
             let mut moved = base_key.clone();
             moved.heat.view = b.key.heat.view;
-            (reuse == Reuse::Shifted && b.key != base_key && b.key == moved)
-                .then(|| view_shift(&b.key.heat.view, &s.view, g))
-                .flatten()
+            if reuse != Reuse::Interim || b.key == base_key || b.key != moved {
+                return None;
+            }
+            match view_motion(&b.key.heat.view, &s.view, g)? {
+                Motion::Scale(_)
+                    if !matches!(&self.overlay, Some(o)
+                        if o.view == b.key.heat.view
+                            && o.content == overlay_content(s, g)) =>
+                {
+                    None
+                }
+                m => Some(m),
+            }
         });
-        if base_shift.is_none() && !matches!(&self.base, Some(b) if b.key == base_key) {
+        if motion.is_none() && !matches!(&self.base, Some(b) if b.key == base_key) {
             let _ = self.heat_key(s);
             self.base = Some(self.make_base(s, w, h, base_key)?);
+            self.bases_made += 1;
         }
         let Some(base) = &self.base else {
             unreachable!("the base layer was just stored")
         };
         let mut pm = base.pixmap.clone();
-        if let (Some(d), Some(g)) = (base_shift, &base.plot) {
-            shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
+        match (motion, &base.plot) {
+            (Some(Motion::Shift(d)), Some(g)) => {
+                shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
+            }
+            (Some(Motion::Scale(m)), Some(g)) => {
+                // The settled plot (base and overlay) once per settled frame, then scaled.
+                let made = (self.bases_made, self.overlays_made);
+                if !matches!(&self.settled_plot, Some((k, _)) if *k == made) {
+                    let mut plot = base.pixmap.clone();
+                    if let Some(o) = &self.overlay {
+                        o.layer.composite(&mut plot, (0, 0), g.pixels);
+                    }
+                    self.settled_plot = Some((made, plot));
+                }
+                if let Some((_, plot)) = &self.settled_plot {
+                    scale_region(&mut pm, plot, g.pixels, &m, MISSING_RGBA);
+                }
+            }
+            _ => {}
         }
         if let Some(g) = &base.plot {
-            let content = OverlayContent {
-                frame: s.frame,
-                overlays: s.overlays.clone(),
-                work: s.work.clone(),
-                data: Arc::as_ptr(&s.data) as usize,
-                lines: Arc::as_ptr(&s.lines) as usize,
-                rect: g.rect,
-                scale: g.scale,
-                pixels: g.pixels,
-            };
+            let content = overlay_content(s, g);
+            let scaled = matches!(motion, Some(Motion::Scale(_)));
             let shift = self.overlay.as_ref().and_then(|o| {
                 if o.content != content {
                     return None;
@@ -884,10 +816,12 @@ impl Renderer {
                 if o.view == s.view {
                     return Some((0, 0));
                 }
-                (reuse == Reuse::Shifted)
+                (reuse == Reuse::Interim)
                     .then(|| view_shift(&o.view, &s.view, g))
                     .flatten()
             });
+            // A scaled interim frame has its overlay in the scaled plot already.
+            let shift = if scaled { Some((0, 0)) } else { shift };
             let shift = match shift {
                 Some(d) => d,
                 None => {
@@ -904,7 +838,7 @@ impl Renderer {
                     (0, 0)
                 }
             };
-            if let Some(o) = &self.overlay {
+            if let (Some(o), false) = (&self.overlay, scaled) {
                 o.layer.composite(&mut pm, shift, g.pixels);
             }
             let mut masks = Vec::new();
@@ -923,14 +857,30 @@ impl Renderer {
         Ok(Rendered { pixmap: pm, plot })
     }
 
-    /// Make sure the heat-map samples of `s` are kept; their key.
+    /// Make sure the heat-map samples of `s` are kept; their key. After a pan by whole samples
+    /// the kept samples are moved and only what came into view is sampled.
     fn heat_key(&mut self, s: &ViewState) -> LayerKey {
         let key = heat_key_of(s);
         if !matches!(&self.heat, Some((k, _)) if *k == key) {
             let (w, h) = (key.size.0 as usize, key.size.1 as usize);
-            self.heat = Some((key.clone(), heat_of(s, w.min(4096), h.min(4096))));
+            let (w, h) = (w.min(4096), h.min(4096));
+            let heat = match self.heat.take() {
+                Some((k, old)) if k.differs_only_in_view(&key) => {
+                    let (heat, reused) = heat_after_pan(s, &k.view, old, w, h);
+                    self.heat_reused += reused as usize;
+                    heat
+                }
+                _ => heat_of(s, w, h),
+            };
+            self.heat = Some((key.clone(), heat));
         }
         key
+    }
+
+    /// Forget the kept heat-map samples, so that the next frame samples the whole view afresh
+    /// (as before pans reused them; for benchmarks and checks).
+    pub fn forget_heat_samples(&mut self) {
+        self.heat = None;
     }
 
     fn make_base(&mut self, s: &ViewState, w: u32, h: u32, key: BaseKey) -> Result<Base> {
@@ -995,33 +945,6 @@ fn heat_key_of(s: &ViewState) -> LayerKey {
         clip_pct: s.clip_pct,
         view: s.view,
         size: (plot_w as u32, plot_h as u32),
-    }
-}
-
-/// Fill the pixel rectangle `r` of `dst` with the same rectangle of `src` moved by `d` px;
-/// where the moved picture does not reach, `fill`.
-fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64), fill: [u8; 4]) {
-    let (w, h) = (dst.width() as i64, dst.height() as i64);
-    let (x0, y0) = (r.0.max(0), r.1.max(0));
-    let (x1, y1) = (r.2.min(w), r.3.min(h));
-    let stride = w as usize * 4;
-    let sd = src.data();
-    for (y, row) in dst.data_mut().chunks_exact_mut(stride).enumerate() {
-        let y = y as i64;
-        if y < y0 || y >= y1 {
-            continue;
-        }
-        let sy = y - d.1;
-        for x in x0..x1 {
-            let sx = x - d.0;
-            let px = if sy >= y0 && sy < y1 && sx >= x0 && sx < x1 {
-                let i = (sy as usize * stride) + sx as usize * 4;
-                [sd[i], sd[i + 1], sd[i + 2], sd[i + 3]]
-            } else {
-                fill
-            };
-            row[x as usize * 4..x as usize * 4 + 4].copy_from_slice(&px);
-        }
     }
 }
 

@@ -5,6 +5,8 @@
 pub mod data;
 pub mod draw;
 pub mod export;
+pub mod heat;
+pub mod interim;
 pub mod keys;
 pub mod layers;
 pub mod lod;

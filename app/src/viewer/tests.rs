@@ -594,7 +594,7 @@ fn sampled_view_equals_interpolating_the_map_at_each_sample() {
         let mut s = state();
         s.apply(Action::SetFrame(k));
         s.apply(Action::ZoomAt(600.0, 400.0, 4.0));
-        let (vals, xs, ys) = super::draw::sample_view(&s, 60, 40);
+        let (vals, xs, ys) = super::heat::sample_view(&s, 60, 40);
         let frame = s.core_frame();
         let mut compared = 0;
         for (r, &y) in ys.iter().enumerate() {
@@ -685,7 +685,7 @@ fn cached_layer_frames_equal_a_direct_render_of_the_same_state() {
     let (x, y) = mid(&s);
     let settled = r.render(&s, w, h).unwrap();
     s.apply(Action::PanBy(6.0, 0.0));
-    let moved = r.render_with(&s, w, h, Reuse::Shifted).unwrap();
+    let moved = r.render_with(&s, w, h, Reuse::Interim).unwrap();
     let px = |p: &tiny_skia::Pixmap, x: f64, y: f64| p.pixel(x as u32, y as u32).unwrap();
     for dy in [-30.0, 0.0, 25.0] {
         for dx in [-50.0, 0.0, 60.0] {
@@ -713,4 +713,74 @@ fn held_keys_repeat_commands_but_never_type_twice() {
         &normal
     ));
     assert!(!repeat_allowed(&zoom, &typing));
+}
+
+#[test]
+fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
+    use super::draw::{Renderer, Reuse};
+    let mut s = state();
+    let (w, h) = (640, 420);
+    let mut r = Renderer::default();
+    let settled = r.render_settled(&mut s, w, h, 1.0).unwrap();
+    let p = settled.plot.unwrap();
+    let made = (r.layers_made, r.overlays_made);
+    let px = |pm: &tiny_skia::Pixmap, x: i64, y: i64| pm.pixel(x as u32, y as u32).unwrap();
+    // Inside the plot, clear of the frame drawn on its edge.
+    let inner =
+        |x: f64, y: f64| x >= p.x0 + 3.0 && x < p.x1 - 3.0 && y >= p.y0 + 3.0 && y < p.y1 - 3.0;
+    let (cx, cy) = (p.x0 + 0.37 * (p.x1 - p.x0), p.y0 + 0.61 * (p.y1 - p.y0));
+    // Two quick notches in, then one out: each interim frame scales the settled picture by the
+    // zoom so far, about the cursor: window pixel q shows what the settled frame had at
+    // cursor + (q − cursor)/zoom.
+    let mut zoom = 1.0;
+    for f in [1.2, 1.2, 1.0 / 1.2 / 1.2 / 1.5] {
+        s.apply(Action::ZoomAt(cx, cy, f));
+        zoom *= f;
+        let interim = r.render_with(&s, w, h, Reuse::Interim).unwrap();
+        assert_eq!(
+            (r.layers_made, r.overlays_made),
+            made,
+            "nothing drawn afresh"
+        );
+        let (mut same, mut missing) = (0, 0);
+        for y in (p.y0 as i64..p.y1 as i64).step_by(7) {
+            for x in (p.x0 as i64..p.x1 as i64).step_by(5) {
+                let (qx, qy) = (x as f64 + 0.5, y as f64 + 0.5);
+                if !inner(qx, qy) {
+                    continue;
+                }
+                let (sx, sy) = (cx + (qx - cx) / zoom, cy + (qy - cy) / zoom);
+                // Skip sources within rounding of a pixel edge (either neighbour is right).
+                let edge = |v: f64| (v - v.round()).abs() < 1e-6;
+                if edge(sx) || edge(sy) {
+                    continue;
+                }
+                let got = px(&interim.pixmap, x, y);
+                if inner(sx, sy) {
+                    assert_eq!(got, px(&settled.pixmap, sx as i64, sy as i64), "({x}, {y})");
+                    same += 1;
+                } else if !(sx >= p.x0 && sx < p.x1 && sy >= p.y0 && sy < p.y1) {
+                    // Zoomed out past what the settled frame showed: the missing-data colour.
+                    assert_eq!(
+                        (got.red(), got.green(), got.blue()),
+                        (40, 40, 40),
+                        "({x}, {y})"
+                    );
+                    missing += 1;
+                }
+            }
+        }
+        assert!(same > 500, "zoom {zoom}: {same} pixels compared");
+        assert_eq!(missing > 0, zoom < 1.0, "zoom {zoom}: {missing} missing");
+        // The axes outside the plot stay as they were until the wheel pauses.
+        assert_eq!(px(&interim.pixmap, 2, 2), px(&settled.pixmap, 2, 2));
+        let below = (p.y1 as i64 + 12).min(h as i64 - 30);
+        for x in (0..w as i64).step_by(3) {
+            assert_eq!(px(&interim.pixmap, x, below), px(&settled.pixmap, x, below));
+        }
+    }
+    // The pause: a settled frame samples and draws the new view (with its new ticks, which
+    // may move the plot).
+    r.render_settled(&mut s, w, h, 1.0).unwrap();
+    assert!(r.layers_made > made.0);
 }

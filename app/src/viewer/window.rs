@@ -2,7 +2,8 @@
 //! with softbuffer; the effects the reducer asks for (save, export, quit) are carried out here,
 //! and the project is autosaved a moment after each change and on close.
 
-use super::draw::{cut_csv, cut_of, export_figure, Renderer, Reuse};
+use super::draw::{cut_csv, cut_of, export_figure, Renderer};
+use super::interim::{Motion, Settle};
 use super::keys::{action_for, repeat_allowed, Key};
 use super::project;
 use super::state::{Action, Button, Drag, Effect, ViewState};
@@ -22,9 +23,6 @@ use winit::window::{Window, WindowId};
 
 /// Delay between the last change and the autosave.
 pub const AUTOSAVE_DELAY: Duration = Duration::from_millis(400);
-/// Pause in a drag after which the interim frames (cached layers moved) give way to a settled
-/// frame drawn afresh.
-pub const SETTLE_DELAY: Duration = Duration::from_millis(120);
 
 /// Where the viewer writes its files.
 #[derive(Clone, Debug)]
@@ -50,8 +48,8 @@ struct App {
     changed_at: Option<Instant>,
     presented: bool,
     error: Option<anyhow::Error>,
-    /// While a pan drag moves: when to draw the settled frame if the pointer stops.
-    settle_at: Option<Instant>,
+    /// While a pan drag moves or the wheel zooms: when to draw the settled frame.
+    settle: Settle,
 }
 
 fn key_of(k: &WKey) -> Option<Key> {
@@ -161,10 +159,7 @@ impl App {
             });
         }
         let panning = matches!(self.state.drag, Some(Drag::Pan { moved: true, .. }));
-        let reuse = match self.settle_at {
-            Some(t) if panning && Instant::now() < t => Reuse::Shifted,
-            _ => Reuse::Exact,
-        };
+        let reuse = self.settle.reuse(Instant::now(), panning);
         let r = self.renderer.render_with(&self.state, w, h, reuse)?;
         if let Some(p) = r.plot {
             if p != self.state.plot {
@@ -284,7 +279,7 @@ impl ApplicationHandler for App {
             WindowEvent::CursorMoved { position, .. } => {
                 self.dispatch(Action::Pointer(position.x, position.y), el);
                 if matches!(self.state.drag, Some(Drag::Pan { moved: true, .. })) {
-                    self.settle_at = Some(Instant::now() + SETTLE_DELAY);
+                    self.settle.moved(Motion::Pan, Instant::now());
                 }
             }
             WindowEvent::CursorLeft { .. } => self.dispatch(Action::PointerLeft, el),
@@ -306,6 +301,8 @@ impl ApplicationHandler for App {
                     MouseScrollDelta::PixelDelta(p) => p.y / 40.0,
                 };
                 if let Some((x, y)) = self.state.pointer {
+                    // Quick notches show the last picture scaled until the wheel pauses.
+                    self.settle.moved(Motion::Steps, Instant::now());
                     self.dispatch(Action::ZoomAt(x, y, 1.2f64.powf(lines)), el);
                 }
             }
@@ -319,6 +316,10 @@ impl ApplicationHandler for App {
                 if let Some(a) = action_for(k, self.mods.control_key(), &self.state.mode) {
                     if event.repeat && !repeat_allowed(&a, &self.state.mode) {
                         return;
+                    }
+                    // A held zoom or pan key: interim frames until it is let go.
+                    if event.repeat && matches!(a, Action::Zoom(_) | Action::PanBy(..)) {
+                        self.settle.moved(Motion::Steps, Instant::now());
                     }
                     self.dispatch(a, el);
                 }
@@ -337,18 +338,18 @@ impl ApplicationHandler for App {
                 }
             }
         }
-        if let Some(t) = self.settle_at {
-            if Instant::now() >= t {
-                self.settle_at = None;
-                if let Some(s) = &self.shown {
-                    s.window.request_redraw();
-                }
+        if self.settle.settle_now(Instant::now()) {
+            if let Some(s) = &self.shown {
+                s.window.request_redraw();
             }
         }
-        let wake = [self.changed_at.map(|t| t + AUTOSAVE_DELAY), self.settle_at]
-            .into_iter()
-            .flatten()
-            .min();
+        let wake = [
+            self.changed_at.map(|t| t + AUTOSAVE_DELAY),
+            self.settle.due(),
+        ]
+        .into_iter()
+        .flatten()
+        .min();
         match wake {
             Some(t) => el.set_control_flow(ControlFlow::WaitUntil(t)),
             None => el.set_control_flow(ControlFlow::Wait),
@@ -392,7 +393,7 @@ pub fn run(state: ViewState, out: Outputs) -> anyhow::Result<()> {
         changed_at: None,
         presented: false,
         error: None,
-        settle_at: None,
+        settle: Settle::default(),
     };
     el.run_app(&mut app).context("running the window")?;
     match app.error {
