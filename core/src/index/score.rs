@@ -242,16 +242,33 @@ pub fn score_lines(
     let b = map.y().values();
     let win = (rows / 25).max(1);
     let min_rows = opts.min_rows.max(rows / 25);
-    let dmax = side_limits(&pos, cands, map.x().len());
-    (0..cands.len())
+    let dmax = side_limits(&pos, cands, map.x().len(), None);
+    let evaluate = |k: usize, dmax: &Array2<f64>| {
+        let col: Vec<f64> = (0..rows).map(|i| pos[[i, k]]).collect();
+        let lim: Vec<f64> = (0..rows).map(|i| dmax[[i, k]]).collect();
+        let need = (min_rows as f64 * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
+            .ceil() as usize;
+        let score_needed = score_needed(&cands[k], opts);
+        line_evidence(k, g, &col, &lim, b, win, (need, score_needed), opts)
+    };
+    let first: Vec<(LineEvidence, Vec<bool>)> = (0..cands.len())
         .into_par_iter()
-        .map(|k| {
-            let col: Vec<f64> = (0..rows).map(|i| pos[[i, k]]).collect();
-            let lim: Vec<f64> = (0..rows).map(|i| dmax[[i, k]]).collect();
-            let need = (min_rows as f64 * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
-                .ceil() as usize;
-            let score_needed = score_needed(&cands[k], opts);
-            line_evidence(k, g, &col, &lim, b, win, (need, score_needed), opts)
+        .map(|k| evaluate(k, &dmax))
+        .collect();
+    // Second look for the fractional fan lines: near charge neutrality the general Wannier
+    // family's many simpler lines cross them in every row, so there only simpler lines that
+    // stand on a ridge in a row keep a fraction from it.
+    let ridges = Array2::from_shape_fn((rows, cands.len()), |(i, k)| first[k].1[i]);
+    let dmax2 = side_limits(&pos, cands, map.x().len(), Some(&ridges));
+    first
+        .into_par_iter()
+        .enumerate()
+        .map(|(k, (ev, _))| {
+            if cands[k].line.family == Family::CompositeFermion {
+                evaluate(k, &dmax2).0
+            } else {
+                ev
+            }
         })
         .collect()
 }
@@ -259,8 +276,15 @@ pub fn score_lines(
 /// Per row and candidate, the largest side offset in columns: half the distance to the
 /// nearest other candidate line of no greater complexity (a coincident line counts, so where
 /// lines converge no row is evidence for any one of them, and a complex candidate inside the
-/// broad plateau of a simpler state has no contrast). Rows × candidates.
-fn side_limits(pos: &Array2<f64>, cands: &[Candidate], cols: usize) -> Array2<f64> {
+/// broad plateau of a simpler state has no contrast). With `ridges` (rows × candidates), a
+/// simpler candidate limits another only in the rows where it stands on a ridge itself.
+/// Rows × candidates.
+fn side_limits(
+    pos: &Array2<f64>,
+    cands: &[Candidate],
+    cols: usize,
+    ridges: Option<&Array2<bool>>,
+) -> Array2<f64> {
     let rows = pos.nrows();
     let mut dmax = Array2::from_elem((rows, cands.len()), f64::NAN);
     dmax.outer_iter_mut()
@@ -280,7 +304,7 @@ fn side_limits(pos: &Array2<f64>, cands: &[Candidate], cols: usize) -> Array2<f6
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck {
+                    if cands[o].complexity <= ck && ridges.is_none_or(|r| r[[i, o]]) {
                         best = d;
                         break;
                     }
@@ -290,7 +314,7 @@ fn side_limits(pos: &Array2<f64>, cands: &[Candidate], cols: usize) -> Array2<f6
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck {
+                    if cands[o].complexity <= ck && ridges.is_none_or(|r| r[[i, o]]) {
                         best = d;
                         break;
                     }
@@ -303,7 +327,8 @@ fn side_limits(pos: &Array2<f64>, cands: &[Candidate], cols: usize) -> Array2<f6
 
 /// The evidence for candidate `k` from its column `col` in each row (NaN outside the map or
 /// its cone) and its largest side offset `lim` per row, on the gap-strength map `g` with
-/// fields `b` (T); `win` rows of smoothing on each side, `need` rows for a detection.
+/// fields `b` (T); `win` rows of smoothing on each side, `need` rows for a detection; with it,
+/// per row, whether the line stands on a ridge there (smoothed contrast above the threshold).
 #[allow(clippy::too_many_arguments)]
 fn line_evidence(
     k: usize,
@@ -314,7 +339,7 @@ fn line_evidence(
     win: usize,
     (need, score_needed): (usize, f64),
     opts: &ScoreOptions,
-) -> LineEvidence {
+) -> (LineEvidence, Vec<bool>) {
     let rows = col.len();
     let mut contrast = vec![f64::NAN; rows];
     let mut inside = 0;
@@ -428,7 +453,8 @@ fn line_evidence(
             ev.score = 0.0;
         }
     }
-    ev
+    let ridge = smooth.iter().map(|&c| c > opts.row_threshold).collect();
+    (ev, ridge)
 }
 
 /// Smallest mean contrast that detects `cand`: [`ScoreOptions::min_score`], raised for the
@@ -638,5 +664,30 @@ mod tests {
         let wannier = cand(Family::Wannier, 1, 2);
         assert_eq!(score_needed(&fan, &o), o.min_score);
         assert!(score_needed(&wannier, &o) > 1.5 * o.min_score);
+    }
+
+    #[test]
+    fn a_simpler_line_limits_a_fraction_only_where_it_stands_on_a_ridge() {
+        // Two rows; a Wannier line (simpler) 1.5 columns from the fractional ν = 1/3.
+        let wannier = cand(Family::Wannier, 1, 1);
+        let line = Line::gap(
+            Family::CompositeFermion,
+            "test",
+            Rational::new(1, 3).unwrap(),
+            Rational::ZERO,
+        );
+        let fraction = Candidate::from_line(line).unwrap();
+        assert!(wannier.complexity < fraction.complexity);
+        let cands = vec![wannier, fraction];
+        let pos = Array2::from_shape_vec((2, 2), vec![10.0, 11.5, 10.0, 11.5]).unwrap();
+        let all = side_limits(&pos, &cands, 100, None);
+        assert_eq!(all[[0, 1]], 0.75);
+        // The Wannier line shows a ridge in row 0 only.
+        let ridges = Array2::from_shape_vec((2, 2), vec![true, false, false, false]).unwrap();
+        let seen = side_limits(&pos, &cands, 100, Some(&ridges));
+        assert_eq!(seen[[0, 1]], 0.75);
+        assert_eq!(seen[[1, 1]], 50.0);
+        // The simpler line is never limited by the fraction.
+        assert_eq!(seen[[1, 0]], 50.0);
     }
 }
