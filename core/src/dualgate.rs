@@ -40,16 +40,7 @@ pub struct LineCut {
 /// Cut `channel` of an (n, D/ε₀) map at fixed density or displacement, interpolating linearly
 /// between the two nearest grid lines.
 pub fn line_cut(map: &Map, channel: &str, at: CutAt) -> Result<LineCut> {
-    let ch = map.channel(channel).ok_or_else(|| {
-        Error::MapRequirement(format!(
-            "the map has no channel `{channel}` (channels: {})",
-            map.channels()
-                .iter()
-                .map(|c| c.name.as_str())
-                .collect::<Vec<_>>()
-                .join(", ")
-        ))
-    })?;
+    let ch = map.require_named(channel)?;
     let (fixed_q, v) = match at {
         CutAt::Density(n) => (Quantity::Density, n),
         CutAt::Displacement(d) => (Quantity::Displacement, d),

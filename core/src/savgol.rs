@@ -454,9 +454,7 @@ fn superscript(k: usize) -> String {
 /// named `<name>_sg<deriv>`, of kind `Other` for derivatives (unit `<unit>/<axis unit>^k`) and of
 /// the input kind for smoothing.
 pub fn savgol_channel(map: &Map, name: &str, along: Along, spec: SavgolSpec) -> Result<Channel> {
-    let ch = map
-        .channel(name)
-        .ok_or_else(|| Error::MapRequirement(format!("the map has no channel named `{name}`")))?;
+    let ch = map.require_named(name)?;
     let axis = match along {
         Along::X => map.x(),
         Along::Y => map.y(),

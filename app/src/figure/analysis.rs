@@ -674,19 +674,7 @@ pub fn dual_gate_figure(
             nd.y().quantity
         )));
     }
-    let ch = nd.channel(channel).ok_or_else(|| {
-        Error::invalid(
-            "channel",
-            format!(
-                "`{channel}` is not a channel of the (n, D) map ({})",
-                nd.channels()
-                    .iter()
-                    .map(|c| c.name.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
-            ),
-        )
-    })?;
+    let ch = nd.require_named(channel)?;
     let largest = finite_range(ch.data.iter().map(|v| v.abs()))
         .map(|r| r.1)
         .ok_or_else(|| Error::invalid("channel", format!("`{channel}` has no finite value")))?;

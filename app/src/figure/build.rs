@@ -288,11 +288,7 @@ fn shown_channel(map: &Map, c: &FigureChoices) -> Result<Shown> {
                     "channel",
                     format!(
                         "`{name}` is neither a channel of the map ({}) nor a derived channel ({})",
-                        map.channels()
-                            .iter()
-                            .map(|c| c.name.as_str())
-                            .collect::<Vec<_>>()
-                            .join(", "),
+                        map.channel_names(),
                         DerivedQuantity::ALL
                             .iter()
                             .map(|q| q.short_name())

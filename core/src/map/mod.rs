@@ -224,13 +224,26 @@ impl Map {
         self.channel_of(kind).ok_or_else(|| {
             Error::MapRequirement(format!(
                 "the map has no {kind:?} channel (channels: {})",
-                self.channels
-                    .iter()
-                    .map(|c| c.name.as_str())
-                    .collect::<Vec<_>>()
-                    .join(", ")
+                self.channel_names()
             ))
         })
+    }
+    /// The channel with this name, or a clear error naming what the map has.
+    pub fn require_named(&self, name: &str) -> Result<&Channel> {
+        self.channel(name).ok_or_else(|| {
+            Error::MapRequirement(format!(
+                "the map has no channel `{name}` (channels: {})",
+                self.channel_names()
+            ))
+        })
+    }
+    /// The channels' names, comma separated, for messages.
+    pub fn channel_names(&self) -> String {
+        self.channels
+            .iter()
+            .map(|c| c.name.as_str())
+            .collect::<Vec<_>>()
+            .join(", ")
     }
     /// The axis measuring `q`, if `x` or `y` does.
     pub fn axis_of(&self, q: Quantity) -> Option<(char, &Axis)> {
@@ -309,6 +322,9 @@ mod tests {
             .is_err());
         assert!(m.require(ChannelKind::Rxy).is_err());
         assert_eq!(m.require(ChannelKind::Rxx).unwrap().unit, "Ω");
+        assert_eq!(m.require_named("rxx").unwrap().kind, ChannelKind::Rxx);
+        let e = m.require_named("r4pt").unwrap_err().to_string();
+        assert!(e.contains("`r4pt`") && e.contains("channels: rxx"), "{e}");
         let mut d = Array2::zeros((2, 3));
         d[[1, 2]] = f64::NAN;
         m.set_channel(Channel::new("rxx", ChannelKind::Rxx, d))
