@@ -437,7 +437,16 @@ pub fn run(a: Args) -> Result<()> {
     clock.lap("prepare");
     let (fig, rep) = build_figure(&map, &choices)?;
     clock.lap("build");
-    write(&fig, format, out).with_context(|| format!("writing {}", out.display()))?;
+    if format == Format::Png {
+        // PNG in two timed stages: drawing the pixels, then encoding and writing the file.
+        let pm = crate::figure::raster::render_rgba(&fig)?;
+        clock.lap("draw");
+        let png = crate::figure::raster::encode_png(&pm, fig.dpi)?;
+        fanmark_core::io::write::write_atomic(out, &png)
+            .with_context(|| format!("writing {}", out.display()))?;
+    } else {
+        write(&fig, format, out).with_context(|| format!("writing {}", out.display()))?;
+    }
     clock.lap("write");
     let (w, h) = fig.pixel_size();
     println!(

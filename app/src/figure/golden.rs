@@ -198,6 +198,37 @@ fn png_matches_the_committed_reference() {
 }
 
 #[test]
+fn bands_draw_the_picture_one_pass_draws() {
+    // Vector items drawn in parallel bands of 256 rows (and of 37, to cross many edges) give the
+    // very bytes of one band over the whole page.
+    let fig = demo_scene(178.0, 75.0, 2);
+    let list = layout(&fig).unwrap();
+    let mut layer = |p: &Panel, m: &super::heatmap::ColorMapping, w, h| {
+        let hm = p.heatmap.as_ref().unwrap();
+        raster::heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h)
+    };
+    let one = raster::draw_list_banded(&fig, &list, &mut layer, usize::MAX / 8).unwrap();
+    assert!(
+        one.height() > 256,
+        "{} rows: bands would not be tested",
+        one.height()
+    );
+    for rows in [256, 37] {
+        let banded = raster::draw_list_banded(&fig, &list, &mut layer, rows).unwrap();
+        let (mut worst, mut differ) = (0u8, 0usize);
+        for (p, q) in one.data().chunks(4).zip(banded.data().chunks(4)) {
+            let d = (0..4).map(|k| p[k].abs_diff(q[k])).max().unwrap();
+            worst = worst.max(d);
+            differ += (d > 0) as usize;
+        }
+        assert!(
+            differ == 0,
+            "bands of {rows}: {differ} pixels differ (worst {worst})"
+        );
+    }
+}
+
+#[test]
 fn png_records_its_dpi_in_phys() {
     let fig = small_scene();
     let png = raster::png_bytes(&fig).unwrap();

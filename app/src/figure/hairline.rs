@@ -4,6 +4,7 @@
 //! patterns are applied along the arc length, partial dashes by the fraction of the step they
 //! cover. Far cheaper than stroking many short dashes one by one.
 
+use super::stroke::blend_opaque;
 use tiny_skia::Pixmap;
 
 /// Draw the polyline `points` (device px, in `pm`'s own pixel frame) in opaque `color` with
@@ -44,14 +45,8 @@ pub fn draw_hairline(
             return;
         }
         let a = (a.min(1.0) * 255.0 + 0.5) as u32;
-        let k = 255 - a;
         let i = ((y * w + x) * 4) as usize;
-        for c in 0..3 {
-            let v = color[c] as u32 * a + data[i + c] as u32 * k;
-            data[i + c] = ((v + 128 + ((v + 128) >> 8)) >> 8) as u8;
-        }
-        let v = 255 * a + data[i + 3] as u32 * k;
-        data[i + 3] = ((v + 128 + ((v + 128) >> 8)) >> 8) as u8;
+        blend_opaque(&mut data[i..i + 4], color, a);
     };
     let mut arc = 0.0;
     for seg in points.windows(2) {
@@ -70,9 +65,28 @@ pub fn draw_hairline(
         };
         let du = u1 - u0;
         let (lo, hi) = (u0.min(u1), u0.max(u1));
-        let limit = if steep { h } else { w } as f64;
-        let first = lo.floor().max(0.0) as i64;
-        let last = (hi.ceil().min(limit) as i64).max(first);
+        // The clip (inside the pixmap) along the major axis u and the minor axis v.
+        let (cu0, cu1, cv0, cv1) = if steep {
+            (clip.1.max(0), clip.3.min(h), clip.0.max(0), clip.2.min(w))
+        } else {
+            (clip.0.max(0), clip.2.min(w), clip.1.max(0), clip.3.min(h))
+        };
+        // Only the stretch whose v comes within two pixels of the clip can plot anything.
+        let (vlo, vhi) = (cv0 as f64 - 2.0, cv1 as f64 + 2.0);
+        let (lo, hi) = if dv == 0.0 {
+            if v0 < vlo || v0 > vhi {
+                arc += len;
+                continue;
+            }
+            (lo, hi)
+        } else {
+            let (ta, tb) = ((vlo - v0) / dv, (vhi - v0) / dv);
+            let (ta, tb) = (ta.min(tb).max(0.0), ta.max(tb).min(1.0));
+            let (ua, ub) = (u0 + du * ta, u0 + du * tb);
+            (lo.max(ua.min(ub)), hi.min(ua.max(ub)))
+        };
+        let first = lo.floor().max(cu0 as f64) as i64;
+        let last = (hi.ceil().min(cu1 as f64) as i64).max(first);
         for p in first..last {
             // Parameter range of the segment inside the pixel slab [p, p + 1).
             let (ta, tb) = {
@@ -157,6 +171,39 @@ mod tests {
                     assert!((x as f64 + 0.5 - cx).abs() < 1.6, "({x}, {y}) vs {cx}");
                 }
             }
+        }
+    }
+
+    #[test]
+    fn a_clip_changes_only_what_lies_outside_it() {
+        // Shallow, steep, horizontal and vertical lines, solid and dashed: inside the clip every
+        // pixel is as the unclipped line draws it, outside nothing is drawn.
+        let lines: [&[(f64, f64)]; 4] = [
+            &[(2.3, 40.2), (117.8, 61.9), (5.0, 70.4)],
+            &[(60.2, 1.0), (52.7, 99.0)],
+            &[(0.0, 48.5), (120.0, 48.5)],
+            &[(41.5, 0.0), (41.5, 100.0)],
+        ];
+        let clip = (30, 45, 90, 66);
+        for (k, line) in lines.iter().enumerate() {
+            let dash: &[f64] = if k % 2 == 0 { &[] } else { &[4.0, 2.0] };
+            let mut full = Pixmap::new(120, 100).unwrap();
+            draw_hairline(&mut full, line, [0, 0, 255], 0.9, dash, ALL);
+            let mut part = Pixmap::new(120, 100).unwrap();
+            draw_hairline(&mut part, line, [0, 0, 255], 0.9, dash, clip);
+            let mut inside = 0;
+            for y in 0..100 {
+                for x in 0..120 {
+                    let p = part.pixel(x, y).unwrap();
+                    if (30..90).contains(&x) && (45..66).contains(&y) {
+                        assert_eq!(p, full.pixel(x, y).unwrap(), "line {k} at ({x}, {y})");
+                        inside += (p.alpha() > 0) as usize;
+                    } else {
+                        assert_eq!(p.alpha(), 0, "line {k} drawn outside at ({x}, {y})");
+                    }
+                }
+            }
+            assert!(inside > 10, "line {k}: {inside} pixels inside");
         }
     }
 

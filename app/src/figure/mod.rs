@@ -14,6 +14,7 @@ pub mod layout;
 pub mod pdf;
 pub mod raster;
 pub mod scene;
+pub mod stroke;
 pub mod style;
 pub mod svg;
 pub mod text;

@@ -7,8 +7,10 @@ use super::geom::Rect;
 use super::heatmap::{self, ColorMapping};
 use super::layout::layout;
 use super::scene::{Figure, HeatMap, Panel};
+use super::stroke::{draw_stroke, DeviceRect, StrokeStyle};
 use super::text::{glyph, TextBlock};
 use fanmark_core::{Error, Result};
+use rayon::prelude::*;
 use tiny_skia::{FillRule, Mask, Paint, PathBuilder, Pixmap, Transform};
 
 /// Pixel rectangle (x0, y0, x1, y1), half-open, that a page rectangle in pt covers at `scale`
@@ -62,14 +64,31 @@ pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Vec<u8>
 
 /// Draw an already laid-out figure, taking each heat-map layer from `layer`.
 pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource) -> Result<Pixmap> {
+    draw_list_banded(fig, list, layer, BAND_ROWS)
+}
+
+/// [`draw_list_with`] with vector items drawn in bands of `band_rows` rows.
+pub(crate) fn draw_list_banded(
+    fig: &Figure,
+    list: &DisplayList,
+    layer: &mut LayerSource,
+    band_rows: usize,
+) -> Result<Pixmap> {
     let (w, h) = fig.pixel_size();
     let mut pm = Pixmap::new(w, h).ok_or_else(|| {
         Error::invalid("figure", format!("cannot allocate a {w}×{h} pixel image"))
     })?;
     pm.fill(tiny_skia::Color::WHITE);
     let scale = w as f64 / list.width;
-    let mut masks: Vec<(Rect, Mask)> = Vec::new();
+    // Vector items since the last heat map or colour strip, drawn together in bands.
+    let mut run: Vec<&Item> = Vec::new();
     for item in &list.items {
+        if !matches!(item, Item::HeatMap { .. } | Item::ColorStrip { .. }) {
+            run.push(item);
+            continue;
+        }
+        draw_in_bands(&mut pm, &run, scale, band_rows);
+        run.clear();
         match item {
             Item::HeatMap { panel, rect } => {
                 let p = &fig.panels[*panel];
@@ -93,14 +112,45 @@ pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource)
                 let img = strip_rgba(&hm.colors, pw, ph);
                 blit_opaque(&mut pm, &img, x0, y0, pw, ph);
             }
-            other => draw_item(&mut pm, other, scale, (0.0, 0.0), &mut masks),
+            _ => {}
         }
     }
+    draw_in_bands(&mut pm, &run, scale, band_rows);
     Ok(pm)
 }
 
+/// Rows of the page in each band when vector items are drawn in parallel. Fixed, so the
+/// picture does not depend on the number of threads.
+const BAND_ROWS: usize = 256;
+
+/// Draw `items` (page pt at `scale` px/pt) onto `pm` in horizontal bands of `band_rows` rows,
+/// in parallel: each band copied out, every item drawn into it, copied back.
+fn draw_in_bands(pm: &mut Pixmap, items: &[&Item], scale: f64, band_rows: usize) {
+    if items.is_empty() {
+        return;
+    }
+    let w = pm.width();
+    let stride = w as usize * 4;
+    pm.data_mut()
+        .par_chunks_mut(stride * band_rows.max(1))
+        .enumerate()
+        .for_each(|(k, rows)| {
+            let Some(mut band) = Pixmap::new(w, (rows.len() / stride) as u32) else {
+                return;
+            };
+            band.data_mut().copy_from_slice(rows);
+            let origin = (0.0, (k * band_rows.max(1)) as f64);
+            let mut masks = Vec::new();
+            for item in items {
+                draw_item(&mut band, item, scale, origin, &mut masks);
+            }
+            rows.copy_from_slice(band.data());
+        });
+}
+
 /// Draw one path or text item into `pm` whose pixel (0, 0) is the page's device pixel `origin`
-/// (so a pixmap can hold one region of the page). Clip rectangles become masks, kept in `masks`
+/// (so a pixmap can hold one region of the page). Clipped strokes without fill are drawn
+/// analytically ([`draw_analytic_stroke`]); other clip rectangles become masks, kept in `masks`
 /// for the next item with the same clip. Heat maps and colour strips are the caller's job.
 pub fn draw_item(
     pm: &mut Pixmap,
@@ -109,6 +159,12 @@ pub fn draw_item(
     origin: (f64, f64),
     masks: &mut Vec<(Rect, Mask)>,
 ) {
+    let all = (i64::MIN, i64::MIN, i64::MAX, i64::MAX);
+    if matches!(item, Item::Path { clip: Some(_), .. })
+        && draw_analytic_stroke(pm, item, scale, origin, all)
+    {
+        return;
+    }
     match item {
         Item::Path {
             points,
@@ -153,6 +209,56 @@ pub fn draw_item(
         ),
         Item::HeatMap { .. } | Item::ColorStrip { .. } => {}
     }
+}
+
+/// Draw `item` with the analytic stroker if it is a stroked, unfilled path of positive width:
+/// points at `scale` px/pt, `pm`'s pixel (0, 0) at device pixel `origin` (rounded to whole
+/// pixels), only device pixels inside `clip` and the item's own clip rectangle touched.
+/// `false` (nothing drawn) for anything else.
+pub fn draw_analytic_stroke(
+    pm: &mut Pixmap,
+    item: &Item,
+    scale: f64,
+    origin: (f64, f64),
+    clip: DeviceRect,
+) -> bool {
+    let Item::Path {
+        points,
+        closed,
+        fill: None,
+        stroke: Some(st),
+        clip: own,
+    } = item
+    else {
+        return false;
+    };
+    let width = st.width * scale;
+    if !(width > 0.0) || !width.is_finite() {
+        return false;
+    }
+    let clip = match own {
+        Some(c) => {
+            let (x0, y0, x1, y1) = pixel_rect(c, scale);
+            (
+                clip.0.max(x0),
+                clip.1.max(y0),
+                clip.2.min(x1),
+                clip.3.min(y1),
+            )
+        }
+        None => clip,
+    };
+    let dev: Vec<(f64, f64)> = points.iter().map(|p| (p.0 * scale, p.1 * scale)).collect();
+    let dash: Vec<f64> = st.dash.iter().map(|d| d * scale).collect();
+    let style = StrokeStyle {
+        color: st.color,
+        width,
+        dash: &dash,
+        closed: *closed,
+    };
+    let origin = (origin.0.round() as i64, origin.1.round() as i64);
+    draw_stroke(pm, origin, &dev, &style, clip);
+    true
 }
 
 /// A `w`×`h` mask, for a pixmap whose pixel (0, 0) is device pixel `origin`, that is opaque
@@ -286,6 +392,17 @@ fn draw_text(
             let u0 = pen.round() as i64 + m.xmin as i64;
             let v0 = base.round() as i64 - m.ymin as i64 - m.height as i64;
             let (ox, oy) = (x.round() as i64, y.round() as i64);
+            // The glyph's box in the pixmap: skip glyphs wholly outside (another band's).
+            let (gw, gh) = (m.width as i64, m.height as i64);
+            let (bx0, by0, bx1, by1) = if vertical {
+                (ox + v0, oy - u0 - gw + 1, ox + v0 + gh, oy - u0 + 1)
+            } else {
+                (ox + u0, oy + v0, ox + u0 + gw, oy + v0 + gh)
+            };
+            if bx1 <= 0 || by1 <= 0 || bx0 >= pw || by0 >= ph {
+                pen += m.advance_width as f64;
+                continue;
+            }
             for gy in 0..m.height {
                 for gx in 0..m.width {
                     let a = cov[gy * m.width + gx] as u32;

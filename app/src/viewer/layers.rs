@@ -1,11 +1,12 @@
 //! Cached pixel layers of the viewer and their compositing: an overlay layer (the lines, markers
-//! and labels over the plot) drawn once in parallel horizontal bands, kept as premultiplied RGBA,
-//! (strokes no wider than a pixel as hairlines), and laid over the opaque base (heat map and axes) with a straight loop over pixels — shifted
-//! by a whole number of pixels while a drag is in progress.
+//! and labels over the plot) drawn once in parallel horizontal bands, kept as premultiplied RGBA
+//! (strokes no wider than a pixel as hairlines, wider ones with the analytic stroker), and laid
+//! over the opaque base (heat map and axes) with a straight loop over pixels — shifted by a whole
+//! number of pixels while a drag is in progress.
 
 use crate::figure::draw::Item;
 use crate::figure::hairline::draw_hairline;
-use crate::figure::raster::draw_item;
+use crate::figure::raster::{draw_analytic_stroke, draw_item};
 use rayon::prelude::*;
 use tiny_skia::Pixmap;
 
@@ -113,9 +114,10 @@ impl OverlayLayer {
     }
 }
 
-/// Draw one overlay item into `pm` whose pixel (0, 0) is device pixel `origin`: strokes no
-/// wider than a pixel as hairlines kept inside `clip` (pixels of `pm`; unclipped otherwise), the
-/// rest through the raster backend.
+/// Draw one overlay item into `pm` whose pixel (0, 0) is device pixel `origin` (whole pixels):
+/// strokes no wider than a pixel as hairlines, wider unfilled strokes with the analytic stroker,
+/// both kept inside `clip` (pixels of `pm`; unclipped otherwise), the rest through the raster
+/// backend.
 pub fn draw_overlay_item(
     pm: &mut Pixmap,
     item: &Item,
@@ -132,7 +134,18 @@ pub fn draw_overlay_item(
                 .collect();
             draw_hairline(pm, &dev, color, coverage, &dash, clip);
         }
-        None => draw_item(pm, item, scale, origin, masks),
+        None => {
+            // The pixel clip in device pixels for the analytic stroker.
+            let device = (
+                clip.0.saturating_add(origin.0 as i64),
+                clip.1.saturating_add(origin.1 as i64),
+                clip.2.saturating_add(origin.0 as i64),
+                clip.3.saturating_add(origin.1 as i64),
+            );
+            if !draw_analytic_stroke(pm, item, scale, origin, device) {
+                draw_item(pm, item, scale, origin, masks);
+            }
+        }
     }
 }
 
