@@ -370,3 +370,65 @@ fn bad_configs_are_refused_with_the_field_named() {
         PathBuf::from("demo-data/wren.truth.json")
     );
 }
+
+/// A visible state shows in the map as written: in at least `MIN_RESOLVED_ROWS` of the
+/// noiseless sweeps R_xx, or σ_xx = ρ_xx/(ρ_xx² + ρ_xy²) with ρ_xx = R_xx·W/L, has a sampled
+/// minimum (no higher than both neighbouring samples) within one gate step of its line. The
+/// moiré device's fractional states beside the insulating ν = 0 peak are the hard case: a dip
+/// on the peak's steep flank changes R_xx there but makes no minimum.
+#[test]
+fn every_visible_state_has_a_sampled_minimum_in_the_written_sweeps() {
+    for seed in [6, 8] {
+        let mut c = SynthConfig::varied(DeviceName::Tern, seed);
+        c.noise.on = false;
+        c.flaws = Flaws::none();
+        let s = generate(&c).unwrap();
+        assert_eq!(s.headers, HEADERS);
+        let w_over_l = s.truth.geometry.w_over_l;
+        let m = &s.model;
+        let mut checked = 0;
+        for (j, st) in s.truth.states.iter().enumerate() {
+            if !st.visible || st.t.is_none() {
+                continue;
+            }
+            checked += 1;
+            let rows = s
+                .sweeps
+                .iter()
+                .filter(|sw| {
+                    let b = sw.step_value;
+                    let mut pts: Vec<(f64, f64, f64)> = sw
+                        .swept
+                        .iter()
+                        .zip(&sw.values[0])
+                        .zip(&sw.values[1])
+                        .map(|((&v, &r), &h)| (v, r, h))
+                        .collect();
+                    pts.sort_by(|a, c| a.0.total_cmp(&c.0));
+                    let dv = pts[1].0 - pts[0].0;
+                    let v_line = m.device.gate_for_density(m.line_density(j, b));
+                    let rxx: Vec<f64> = pts.iter().map(|p| p.1).collect();
+                    let sxx: Vec<f64> = pts
+                        .iter()
+                        .map(|p| {
+                            let rho = p.1 * w_over_l;
+                            rho / (rho * rho + p.2 * p.2)
+                        })
+                        .collect();
+                    (1..pts.len() - 1).any(|k| {
+                        (pts[k].0 - v_line).abs() <= dv * (1.0 + 1e-9)
+                            && [&rxx, &sxx]
+                                .iter()
+                                .any(|f| f[k] <= f[k - 1] && f[k] <= f[k + 1])
+                    })
+                })
+                .count();
+            assert!(
+                rows >= crate::synth::truth::MIN_RESOLVED_ROWS,
+                "tern {seed} {}: a sampled minimum in {rows} rows",
+                st.label
+            );
+        }
+        assert!(checked > 30, "tern {seed}: {checked} visible states");
+    }
+}

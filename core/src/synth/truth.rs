@@ -61,7 +61,9 @@ pub struct TruthState {
     /// `MIN_RESOLVED_ROWS` (4) of the map's field rows (the fields as measured, warped steps
     /// included). A gap line is resolvable at a field
     /// when its line lies inside the gate range and its own domain, its plateau spans at least
-    /// one gate step, its R_xx dip (or peak) exceeds 3× the noise, and no other state with
+    /// one gate step, its R_xx dip (or peak) exceeds 3× the noise, the noiseless σ_xx or R_xx
+    /// sampled on the map's gate grid has a minimum within one gate step of the line, and no
+    /// other state with
     /// such a dip at least as deep (relative to R_xx) lies within two gate steps in density
     /// (a sampled maximum must separate the two minima, or the weaker is hidden in the
     /// stronger). A line is told from a point feature only by its slope through several
@@ -167,8 +169,18 @@ fn significant_dips(model: &Model, cfg: &SynthConfig, b: f64) -> Vec<f64> {
 
 /// True when state `j`'s gap is resolvable at field `b` given every state's `dips` there;
 /// see [`TruthState::visible`].
-fn resolvable(model: &Model, j: usize, b: f64, dips: &[f64], gate_step_density: f64) -> bool {
-    if dips[j] <= 0.0 || 2.0 * model.plateau_half_width(j, b) < gate_step_density {
+fn resolvable(
+    model: &Model,
+    cfg: &SynthConfig,
+    j: usize,
+    b: f64,
+    dips: &[f64],
+    gate_step_density: f64,
+) -> bool {
+    if dips[j] <= 0.0
+        || 2.0 * model.plateau_half_width(j, b) < gate_step_density
+        || !at_sampled_minimum(model, cfg, j, b)
+    {
         return false;
     }
     let n = model.line_density(j, b);
@@ -176,6 +188,33 @@ fn resolvable(model: &Model, j: usize, b: f64, dips: &[f64], gate_step_density: 
         k != j
             && dips[k] >= dips[j]
             && (model.line_density(k, b) - n).abs() < MIN_SEPARATION_STEPS * gate_step_density
+    })
+}
+
+/// True when the map, sampled on its gate grid, shows a minimum of the noiseless σ_xx or R_xx
+/// at field `b` within one gate step of state `j`'s line: a sampled value no higher than its
+/// two neighbouring samples. A dip on the steep flank of a stronger feature (an insulating
+/// peak, say) that makes no sampled minimum is not seen in a map, however much it changes
+/// the values there.
+fn at_sampled_minimum(model: &Model, cfg: &SynthConfig, j: usize, b: f64) -> bool {
+    let (g_lo, g_hi) = cfg.gate_range_v;
+    let cols = cfg.gate_points.max(3);
+    let dv = (g_hi - g_lo) / (cols - 1) as f64;
+    let column = (model.device.gate_for_density(model.line_density(j, b)) - g_lo) / dv;
+    if !column.is_finite() {
+        return false;
+    }
+    let density = |c: i64| model.device.density(g_lo + dv * c as f64);
+    let first = ((column - 1.0).ceil() as i64).max(1);
+    let last = ((column + 1.0).floor() as i64).min(cols as i64 - 2);
+    let quantities: [&dyn Fn(f64) -> f64; 2] = [&|n| model.conductivity(n, b, None).0, &|n| {
+        model.rxx_at_density(n, b, None)
+    }];
+    (first..=last).any(|c| {
+        quantities.iter().any(|f| {
+            let centre = f(density(c));
+            centre <= f(density(c - 1)) && centre <= f(density(c + 1))
+        })
     })
 }
 
@@ -200,7 +239,7 @@ fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>
                 continue;
             }
             o.1 = Some(b);
-            if o.0.is_none() && resolvable(model, j, b, &dips, gate_step_density) {
+            if o.0.is_none() && resolvable(model, cfg, j, b, &dips, gate_step_density) {
                 o.0 = Some(b);
             }
         }
@@ -214,7 +253,7 @@ fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>
     for b in super::flaws::field_values(b_lo, b_hi, cfg.field_points.max(1), warp) {
         let dips = significant_dips(model, cfg, b);
         for (j, o) in out.iter_mut().enumerate() {
-            if resolvable(model, j, b, &dips, gate_step_density) {
+            if resolvable(model, cfg, j, b, &dips, gate_step_density) {
                 o.2 += 1;
             }
         }
