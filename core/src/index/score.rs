@@ -9,9 +9,10 @@
 //! candidate line of no greater complexity (so a complex candidate lying inside the broad
 //! plateau of a simpler state has no contrast). Both sides must lie inside the map: a line
 //! running along the map's edge, or down the flank of a broader feature, is not a ridge. The contrast is
-//! smoothed over a few rows; the line is seen over the longest run of rows where the smoothed
-//! contrast exceeds the threshold, its lowest field is the onset, and the score is the mean
-//! contrast over that run (row-noise units) with a t-statistic against its row-to-row scatter.
+//! smoothed over a few rows; the line is seen over the strongest long-enough run of rows where
+//! the smoothed contrast exceeds the threshold (and, in as many rows, its own contrast does),
+//! its lowest field is the onset, and the score is the mean contrast over that run (row-noise
+//! units) with a t-statistic against its row-to-row (successive-difference) scatter.
 
 use crate::constants::E_OVER_H;
 use crate::gate::SingleGate;
@@ -442,14 +443,23 @@ fn line_evidence(
         let v = &contrast[a..z];
         let n = v.len() as f64;
         let mean = v.iter().sum::<f64>() / n;
-        let var = v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (n - 1.0).max(1.0);
+        // Row-to-row scatter from successive differences (von Neumann): a state whose gap
+        // grows along the run is not made uncertain by its own growth.
+        let var = if v.len() > 1 {
+            v.windows(2).map(|w| (w[1] - w[0]).powi(2)).sum::<f64>() / (2.0 * (n - 1.0))
+        } else {
+            0.0
+        };
         ev.score = mean;
         ev.t_stat = mean / (var.sqrt() / n.sqrt()).max(1e-9);
         ev.rows_seen = v.len();
         let (b0, b1) = (b[a], b[z - 1]);
         ev.b_onset_t = Some(b0.min(b1));
         ev.b_max_t = Some(b0.max(b1));
-        if v.len() < need {
+        // The smoothing spreads a bright spot (a crossing, a horizontal feature) over the
+        // rows around it; the line itself must stand out in enough rows of its own.
+        let own = v.iter().filter(|&&c| c > opts.row_threshold).count();
+        if v.len() < need || own < need {
             ev.score = 0.0;
         }
     }
@@ -635,6 +645,46 @@ mod tests {
                 ev[k]
             );
         }
+    }
+
+    #[test]
+    fn a_bright_spot_on_a_line_is_not_a_line_when_the_smoothing_alone_makes_the_run() {
+        // Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹. On the
+        // ν = 3 line a spot of contrast 100 in three rows near 8 T (where some other feature
+        // crosses it); on the ν = −3 line a steady faint ridge of contrast 5 from 6 T up.
+        let (rows, cols) = (121, 401);
+        let x = Axis::uniform("vg", Quantity::Gate, -10.0, 0.05, cols).unwrap();
+        let y = Axis::uniform("b", Quantity::Field, 0.0, 0.1, rows).unwrap();
+        let map = Map::new(x, y);
+        let gate = SingleGate {
+            alpha_m2_per_v: 1e15,
+            v_cnp: 0.0,
+        };
+        let b = map.y().values().to_vec();
+        let column = |nu: f64, i: usize| (nu * E_OVER_H * b[i] / 1e15 + 10.0) / 0.05;
+        let g = Array2::from_shape_fn((rows, cols), |(i, j)| {
+            let peak = |c: f64, w: f64| (-((j as f64 - c) / w).powi(2)).exp();
+            let spot = if (80..83).contains(&i) {
+                100.0 * peak(column(3.0, i), 1.5)
+            } else {
+                0.0
+            };
+            let ridge = if b[i] >= 6.0 {
+                5.0 * peak(column(-3.0, i), 1.5)
+            } else {
+                0.0
+            };
+            spot + ridge + 0.2 * ((5 * i + 11 * j) as f64).sin()
+        });
+        let cands = vec![cand(Family::Integer, 3, 0), cand(Family::Integer, -3, 0)];
+        let o = ScoreOptions::default();
+        let ev = score_lines(&map, &g, &gate, None, &cands, &o);
+        assert!(!is_detected(&ev[0], &o), "a spot made a line: {:?}", ev[0]);
+        assert!(
+            is_detected(&ev[1], &o),
+            "the faint ridge missed: {:?}",
+            ev[1]
+        );
     }
 
     #[test]
