@@ -556,6 +556,17 @@ mod tests {
         Candidate::from_line(line).expect("a gap line")
     }
 
+    /// Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹, V_CNP = 0.
+    fn fan_grid() -> (Map, SingleGate) {
+        let x = Axis::uniform("vg", Quantity::Gate, -10.0, 0.05, 401).unwrap();
+        let y = Axis::uniform("b", Quantity::Field, 0.0, 0.1, 121).unwrap();
+        let gate = SingleGate {
+            alpha_m2_per_v: 1e15,
+            v_cnp: 0.0,
+        };
+        (Map::new(x, y), gate)
+    }
+
     #[test]
     fn a_ridge_is_seen_and_a_flank_at_the_map_edge_is_not() {
         // Gate −8.2…21.7 V in 0.1 V steps, field 1…13 T; n = 10¹⁵ m⁻² V⁻¹ · V, n₀ = 4×10¹⁵ m⁻².
@@ -600,15 +611,8 @@ mod tests {
 
     #[test]
     fn a_long_faint_run_wins_over_a_short_bright_spot_and_converging_rows_are_no_evidence() {
-        // Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹.
-        let (rows, cols) = (121, 401);
-        let x = Axis::uniform("vg", Quantity::Gate, -10.0, 0.05, cols).unwrap();
-        let y = Axis::uniform("b", Quantity::Field, 0.0, 0.1, rows).unwrap();
-        let map = Map::new(x, y);
-        let gate = SingleGate {
-            alpha_m2_per_v: 1e15,
-            v_cnp: 0.0,
-        };
+        let (map, gate) = fan_grid();
+        let (rows, cols) = map.shape();
         let b = map.y().values().to_vec();
         // ν = 6: a faint ridge (contrast 6) from 4 T up; a bright spot (300) at the charge
         // neutrality point in the three lowest rows, where every s = 0 line meets.
@@ -649,17 +653,10 @@ mod tests {
 
     #[test]
     fn a_bright_spot_on_a_line_is_not_a_line_when_the_smoothing_alone_makes_the_run() {
-        // Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹. On the
-        // ν = 3 line a spot of contrast 100 in three rows near 8 T (where some other feature
+        // On the ν = 3 line a spot of contrast 100 in three rows near 8 T (where some other feature
         // crosses it); on the ν = −3 line a steady faint ridge of contrast 5 from 6 T up.
-        let (rows, cols) = (121, 401);
-        let x = Axis::uniform("vg", Quantity::Gate, -10.0, 0.05, cols).unwrap();
-        let y = Axis::uniform("b", Quantity::Field, 0.0, 0.1, rows).unwrap();
-        let map = Map::new(x, y);
-        let gate = SingleGate {
-            alpha_m2_per_v: 1e15,
-            v_cnp: 0.0,
-        };
+        let (map, gate) = fan_grid();
+        let (rows, cols) = map.shape();
         let b = map.y().values().to_vec();
         let column = |nu: f64, i: usize| (nu * E_OVER_H * b[i] / 1e15 + 10.0) / 0.05;
         let g = Array2::from_shape_fn((rows, cols), |(i, j)| {
