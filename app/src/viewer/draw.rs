@@ -9,13 +9,13 @@ use super::data::ChannelChoice;
 use super::heat::{heat_after_pan, heat_of};
 use super::interim::{scale_region, shift_region, PixelMap};
 use super::keys::help_lines;
-use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
+use super::layers::{draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
 use crate::figure::draw::Item;
 use crate::figure::geom::Rect;
 use crate::figure::heatmap::ColorMapping;
 use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
-use crate::figure::raster::{clip_mask, draw_item, draw_list_with, heatmap_layer, pixel_rect};
+use crate::figure::raster::{draw_item, draw_list_onto, heatmap_layer, pixel_rect};
 use crate::figure::scene::{
     AxisSpec, ColorBar, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers, Panel,
     Polyline, TextLabel, ValueRange,
@@ -26,7 +26,7 @@ use fanmark_core::line::{Family, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
 use std::sync::Arc;
-use tiny_skia::{Mask, Pixmap};
+use tiny_skia::Pixmap;
 
 /// Screen resolution at scale factor 1, dots per inch (the common desktop convention).
 pub const SCREEN_DPI: f64 = 96.0;
@@ -535,8 +535,6 @@ struct Base {
     plot: Option<PlotGeometry>,
     /// The frame around the plot, drawn over the overlays.
     frame: Option<Item>,
-    /// Clip of the plot for the pointer overlay, window-sized.
-    clip: Option<Mask>,
 }
 
 /// Everything the kept overlay depends on apart from the viewport.
@@ -826,7 +824,7 @@ impl Renderer {
                 Some(d) => d,
                 None => {
                     let items = kept_items(s, g);
-                    let bands = rayon::current_num_threads().clamp(2, 8);
+                    let bands = overlay_bands(g.pixels);
                     let layer = OverlayLayer::draw(&items, g.scale, g.pixels, bands)
                         .ok_or_else(no_frame)?;
                     self.overlays_made += 1;
@@ -841,10 +839,8 @@ impl Renderer {
             if let (Some(o), false) = (&self.overlay, scaled) {
                 o.layer.composite(&mut pm, shift, g.pixels);
             }
+            // Clip masks (for filled markers) are made as items ask for them.
             let mut masks = Vec::new();
-            if let Some(clip) = &base.clip {
-                masks.push((g.rect, clip.clone()));
-            }
             for item in &pointer_items(s, g) {
                 draw_item(&mut pm, item, g.scale, (0.0, 0.0), &mut masks);
             }
@@ -907,25 +903,14 @@ impl Renderer {
             *cache = Some((heat_key.clone(), (pw, ph), img.clone()));
             img
         };
-        let fpm = draw_list_with(&c.fig, &c.list, &mut source)?;
         let mut pixmap = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
-        pixmap.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
-        copy_opaque(&mut pixmap, &fpm);
-        let clip = c.plot.map(|g| {
-            clip_mask(
-                &g.rect,
-                g.scale,
-                (0.0, 0.0),
-                pixmap.width(),
-                pixmap.height(),
-            )
-        });
+        draw_list_onto(&mut pixmap, &c.fig, &c.list, &mut source);
+        fill_outside_page(&mut pixmap, c.fig.pixel_size());
         Ok(Base {
             key,
             pixmap,
             plot: c.plot,
             frame: c.frame,
-            clip,
         })
     }
 }
@@ -970,12 +955,11 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
     let heat = heat_of(s, plot_w.min(4096), plot_h.min(4096));
     let cut = cut_of(s);
     let c = chrome(s, w, h, light_heat(&heat), cut.as_ref())?;
-    let fpm = draw_list_with(&c.fig, &c.list, &mut |p, m, pw, ph| {
-        heatmap_layer(&heat, m, p.x_axis.range, p.y_axis.range, pw, ph)
-    })?;
     let mut pm = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
-    pm.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
-    copy_opaque(&mut pm, &fpm);
+    draw_list_onto(&mut pm, &c.fig, &c.list, &mut |p, m, pw, ph| {
+        heatmap_layer(&heat, m, p.x_axis.range, p.y_axis.range, pw, ph)
+    });
+    fill_outside_page(&mut pm, c.fig.pixel_size());
     if let Some(g) = &c.plot {
         let mut masks = Vec::new();
         // The kept items drawn in place, then every pixel outside the plot put back: the clip.
@@ -991,6 +975,33 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
     let plot = c.plot.map(|g| g.area());
     finish(&mut pm, s, plot);
     Ok(Rendered { pixmap: pm, plot })
+}
+
+/// Rows of the plot in each band of the overlay layer: a band's pixels stay in a core's cache
+/// while every line crosses it.
+const OVERLAY_BAND_ROWS: i64 = 64;
+
+/// Number of bands the overlay layer over `plot` is drawn in: at least one per worker.
+fn overlay_bands(plot: PixelRect) -> usize {
+    let rows = (plot.3 - plot.1).max(1);
+    let by_rows = (rows + OVERLAY_BAND_ROWS - 1) / OVERLAY_BAND_ROWS;
+    (by_rows as usize).clamp(rayon::current_num_threads().max(2), 32)
+}
+
+/// Colour of the window around the figure's page (the status line's background).
+const WINDOW_RGBA: [u8; 4] = [235, 235, 235, 255];
+
+/// Fill every pixel of `pm` outside the top-left `page` (width, height) pixels with
+/// [`WINDOW_RGBA`].
+fn fill_outside_page(pm: &mut Pixmap, page: (u32, u32)) {
+    let stride = pm.width() as usize * 4;
+    let n = (page.0.min(pm.width()) as usize * 4).min(stride);
+    for (y, row) in pm.data_mut().chunks_exact_mut(stride).enumerate() {
+        let from = if (y as u32) < page.1 { n } else { 0 };
+        for px in row[from..].chunks_exact_mut(4) {
+            px.copy_from_slice(&WINDOW_RGBA);
+        }
+    }
 }
 
 /// Copy back from `before` every pixel of `pm` outside the half-open pixel rectangle `r`.
