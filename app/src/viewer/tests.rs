@@ -131,6 +131,36 @@ fn wheel_zoom_keeps_the_point_under_the_pointer() {
 }
 
 #[test]
+fn wheel_zoom_out_stops_at_four_times_the_map_in_each_axis() {
+    use super::state::{FrameKind, MAX_ZOOM_OUT};
+    for frame in [FrameKind::GateField, FrameKind::DensityField] {
+        let mut s = state();
+        s.apply(Action::SetFrame(frame));
+        s.apply(Action::ResetView);
+        let full = s.full_view(frame);
+        let (fw, fh) = (full.x1 - full.x0, full.y1 - full.y0);
+        let p = (400.0, 300.0);
+        let kept = s.px_to_frame(p.0, p.1);
+        // Thirty notches out would make the view 1.2^30 ≈ 237 times wider without the limit.
+        for _ in 0..30 {
+            s.apply(Action::ZoomAt(p.0, p.1, 1.0 / 1.2));
+        }
+        let (w, h) = (s.view.x1 - s.view.x0, s.view.y1 - s.view.y0);
+        assert!(close(w, MAX_ZOOM_OUT * fw, 1e-9), "{frame:?}: {w} vs {fw}");
+        assert!(close(h, MAX_ZOOM_OUT * fh, 1e-9), "{frame:?}: {h} vs {fh}");
+        // The point under the pointer stayed put all the way.
+        let now = s.px_to_frame(p.0, p.1);
+        assert!(close(kept.0, now.0, 1e-9) && close(kept.1, now.1, 1e-9));
+        // At the limit a further notch out changes nothing; one in still zooms.
+        let at_limit = s.view;
+        s.apply(Action::ZoomAt(p.0, p.1, 0.5));
+        assert_eq!(s.view, at_limit);
+        s.apply(Action::ZoomAt(p.0, p.1, 1.2));
+        assert!(close(s.view.x1 - s.view.x0, MAX_ZOOM_OUT * fw / 1.2, 1e-9));
+    }
+}
+
+#[test]
 fn box_zoom_shows_exactly_the_box() {
     let mut s = state();
     let a = s.px_to_frame(200.0, 600.0);
