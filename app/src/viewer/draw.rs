@@ -981,11 +981,17 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
 /// while every line crosses it.
 const OVERLAY_BAND_ROWS: i64 = 64;
 
-/// Number of bands the overlay layer over `plot` is drawn in: at least one per worker.
+/// Number of bands the overlay layer over `plot` is drawn in: one per [`OVERLAY_BAND_ROWS`]
+/// rows, at most 32, but at least one per worker (and at least two).
 fn overlay_bands(plot: PixelRect) -> usize {
-    let rows = (plot.3 - plot.1).max(1);
+    bands_for(plot.3 - plot.1, rayon::current_num_threads())
+}
+
+/// [`overlay_bands`] for a plot `rows` high drawn by `workers` threads.
+fn bands_for(rows: i64, workers: usize) -> usize {
+    let rows = rows.max(1);
     let by_rows = (rows + OVERLAY_BAND_ROWS - 1) / OVERLAY_BAND_ROWS;
-    (by_rows as usize).clamp(rayon::current_num_threads().max(2), 32)
+    (by_rows as usize).min(32).max(workers).max(2)
 }
 
 /// Colour of the window around the figure's page (the status line's background).
@@ -1207,5 +1213,23 @@ pub fn draw_string(pm: &mut Pixmap, text: &str, x: f64, y: f64, px: f32, color: 
             }
         }
         pen += m.advance_width as f64;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::bands_for;
+
+    #[test]
+    fn overlay_bands_follow_the_rows_but_never_fall_below_the_workers() {
+        // 850 rows in bands of 64: 14 bands.
+        assert_eq!(bands_for(850, 2), 14);
+        // A short plot still gives each worker a band; a tall one stops at 32.
+        assert_eq!(bands_for(40, 2), 2);
+        assert_eq!(bands_for(40, 6), 6);
+        assert_eq!(bands_for(10_000, 2), 32);
+        // More workers than the row count asks for (a large machine): one each, no panic.
+        assert_eq!(bands_for(10_000, 64), 64);
+        assert_eq!(bands_for(0, 1), 2);
     }
 }
