@@ -11,6 +11,7 @@ use super::stroke::{draw_stroke, DeviceRect, StrokeStyle};
 use super::text::{glyph, TextBlock};
 use fanmark_core::{Error, Result};
 use rayon::prelude::*;
+use std::rc::Rc;
 use tiny_skia::{FillRule, Mask, Paint, PathBuilder, Pixmap, Transform};
 
 /// Pixel rectangle (x0, y0, x1, y1), half-open, that a page rectangle in pt covers at `scale`
@@ -54,13 +55,14 @@ pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
             .heatmap
             .as_ref()
             .expect("called for panels with a heat map");
-        heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h)
+        Rc::new(heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h))
     })
 }
 
 /// A source of heat-map layers: (panel, mapping, width, height) → straight-alpha RGBA, as
-/// [`heatmap_layer`] makes them. The viewer passes a cache here.
-pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Vec<u8> + 'a;
+/// [`heatmap_layer`] makes them, shared so that a cache hands its layer out without a copy.
+/// The viewer passes a cache here.
+pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Rc<Vec<u8>> + 'a;
 
 /// Draw an already laid-out figure, taking each heat-map layer from `layer`.
 pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource) -> Result<Pixmap> {

@@ -25,6 +25,7 @@ use fanmark_core::constants::E_OVER_H;
 use fanmark_core::line::{Family, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
+use std::rc::Rc;
 use std::sync::Arc;
 use tiny_skia::Pixmap;
 
@@ -636,11 +637,14 @@ fn no_frame() -> fanmark_core::Error {
     fanmark_core::Error::invalid("viewer", "cannot allocate the frame")
 }
 
+/// The last heat-map layer: its key, its size (px) and its straight-alpha RGBA, shared.
+type KeptLayer = (LayerKey, (u32, u32), Rc<Vec<u8>>);
+
 /// Renders states to pixels, keeping the last heat map, base layer and overlay layer so that
 /// a frame redraws only what its state changed.
 #[derive(Default)]
 pub struct Renderer {
-    layer: Option<(LayerKey, (u32, u32), Vec<u8>)>,
+    layer: Option<KeptLayer>,
     heat: Option<(LayerKey, HeatMap)>,
     base: Option<Base>,
     overlay: Option<Overlay>,
@@ -889,18 +893,25 @@ impl Renderer {
         let cache = &mut self.layer;
         let made = &mut self.layers_made;
         let heat_key = &key.heat;
-        let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Vec<u8> {
+        let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Rc<Vec<u8>> {
             if let Some((k, size, img)) = cache.as_ref() {
                 if k == heat_key && *size == (pw, ph) {
-                    return img.clone();
+                    return Rc::clone(img);
                 }
             }
             if p.heatmap.is_none() {
-                return Vec::new();
+                return Rc::new(Vec::new());
             }
-            let img = heatmap_layer(full_heat, m, p.x_axis.range, p.y_axis.range, pw, ph);
+            let img = Rc::new(heatmap_layer(
+                full_heat,
+                m,
+                p.x_axis.range,
+                p.y_axis.range,
+                pw,
+                ph,
+            ));
             *made += 1;
-            *cache = Some((heat_key.clone(), (pw, ph), img.clone()));
+            *cache = Some((heat_key.clone(), (pw, ph), Rc::clone(&img)));
             img
         };
         let mut pixmap = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
@@ -957,7 +968,14 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
     let c = chrome(s, w, h, light_heat(&heat), cut.as_ref())?;
     let mut pm = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
     draw_list_onto(&mut pm, &c.fig, &c.list, &mut |p, m, pw, ph| {
-        heatmap_layer(&heat, m, p.x_axis.range, p.y_axis.range, pw, ph)
+        Rc::new(heatmap_layer(
+            &heat,
+            m,
+            p.x_axis.range,
+            p.y_axis.range,
+            pw,
+            ph,
+        ))
     });
     fill_outside_page(&mut pm, c.fig.pixel_size());
     if let Some(g) = &c.plot {

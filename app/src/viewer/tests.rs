@@ -813,3 +813,42 @@ fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
     r.render_settled(&mut s, w, h, 1.0).unwrap();
     assert!(r.layers_made > made.0);
 }
+
+#[test]
+fn a_kept_heat_map_layer_gives_the_fresh_frame_and_a_new_palette_redraws_it() {
+    use super::draw::Renderer;
+    let mut s = state();
+    s.apply(Action::CycleCut);
+    let (w, h) = (640, 420);
+    let mut r = Renderer::default();
+    let mid = |s: &ViewState| (0.5 * (s.plot.x0 + s.plot.x1), 0.5 * (s.plot.y0 + s.plot.y1));
+    r.render_settled(&mut s, w, h, 1.0).unwrap();
+    let (x, y) = mid(&s);
+    s.apply(Action::Pointer(x, y));
+    r.render_settled(&mut s, w, h, 1.0).unwrap();
+    let made = r.layers_made;
+    // A pointer move changes the row cut, so the base is drawn again; the heat map is not.
+    let cut = super::draw::cut_of(&s);
+    s.apply(Action::Pointer(x + 5.0, y + 30.0));
+    assert!(
+        cut.is_some() && super::draw::cut_of(&s) != cut,
+        "the cut moved"
+    );
+    let kept = r.render(&s, w, h).unwrap();
+    assert_eq!(r.layers_made, made, "the kept layer was used");
+    let fresh = Renderer::default().render(&s, w, h).unwrap();
+    assert!(
+        kept.pixmap.data() == fresh.pixmap.data(),
+        "kept layer frame = fresh frame"
+    );
+    // Another palette is another key: the layer is made again, and equals a fresh one.
+    s.apply(Action::CyclePalette(1));
+    let next = r.render(&s, w, h).unwrap();
+    assert_eq!(r.layers_made, made + 1);
+    let fresh = Renderer::default().render(&s, w, h).unwrap();
+    assert!(next.pixmap.data() == fresh.pixmap.data());
+    assert!(
+        next.pixmap.data() != kept.pixmap.data(),
+        "the palette shows"
+    );
+}
