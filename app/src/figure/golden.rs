@@ -205,7 +205,14 @@ fn bands_draw_the_picture_one_pass_draws() {
     let list = layout(&fig).unwrap();
     let mut layer = |p: &Panel, m: &super::heatmap::ColorMapping, w, h| {
         let hm = p.heatmap.as_ref().unwrap();
-        raster::heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h)
+        std::rc::Rc::new(raster::heatmap_layer(
+            hm,
+            m,
+            p.x_axis.range,
+            p.y_axis.range,
+            w,
+            h,
+        ))
     };
     let one = raster::draw_list_banded(&fig, &list, &mut layer, usize::MAX / 8).unwrap();
     assert!(

@@ -19,29 +19,14 @@ pub fn draw_hairline(
     dash: &[f64],
     clip: (i64, i64, i64, i64),
 ) {
-    let period: f64 = dash.iter().sum();
-    let dashed = dash.len() >= 2 && period > 0.0 && dash.iter().all(|d| d.is_finite() && *d >= 0.0);
-    let on_upto = |s: f64| -> f64 {
-        // Length of "on" in the pattern over [0, s].
-        let k = (s / period).floor();
-        let mut rest = s - k * period;
-        let mut on = 0.0;
-        let mut on_per = 0.0;
-        for (i, d) in dash.iter().enumerate() {
-            if i % 2 == 0 {
-                on_per += d;
-                on += rest.min(*d);
-            }
-            rest = (rest - d).max(0.0);
-        }
-        k * on_per + on
-    };
+    let mut pattern = DashCursor::new(dash);
     let (w, h) = (pm.width() as i64, pm.height() as i64);
     let data = pm.data_mut();
     let cov = coverage.clamp(0.0, 1.0);
+    // The clip inside the pixmap.
+    let (kx0, ky0, kx1, ky1) = (clip.0.max(0), clip.1.max(0), clip.2.min(w), clip.3.min(h));
     let mut plot = |x: i64, y: i64, a: f64| {
-        let inside = x >= clip.0.max(0) && y >= clip.1.max(0) && x < clip.2.min(w);
-        if !inside || y >= clip.3.min(h) || a <= 0.0 {
+        if x < kx0 || y < ky0 || x >= kx1 || y >= ky1 || a <= 0.0 {
             return;
         }
         let a = (a.min(1.0) * 255.0 + 0.5) as u32;
@@ -65,11 +50,11 @@ pub fn draw_hairline(
         };
         let du = u1 - u0;
         let (lo, hi) = (u0.min(u1), u0.max(u1));
-        // The clip (inside the pixmap) along the major axis u and the minor axis v.
+        // The clip along the major axis u and the minor axis v.
         let (cu0, cu1, cv0, cv1) = if steep {
-            (clip.1.max(0), clip.3.min(h), clip.0.max(0), clip.2.min(w))
+            (ky0, ky1, kx0, kx1)
         } else {
-            (clip.0.max(0), clip.2.min(w), clip.1.max(0), clip.3.min(h))
+            (kx0, kx1, ky0, ky1)
         };
         // Only the stretch whose v comes within two pixels of the clip can plot anything.
         let (vlo, vhi) = (cv0 as f64 - 2.0, cv1 as f64 + 2.0);
@@ -85,25 +70,30 @@ pub fn draw_hairline(
             let (ua, ub) = (u0 + du * ta, u0 + du * tb);
             (lo.max(ua.min(ub)), hi.min(ua.max(ub)))
         };
-        let first = lo.floor().max(cu0 as f64) as i64;
-        let last = (hi.ceil().min(cu1 as f64) as i64).max(first);
-        for p in first..last {
+        let first = floor(lo).max(cu0 as f64) as i64;
+        let last = ((-floor(-hi)).min(cu1 as f64) as i64).max(first);
+        let inv = 1.0 / du;
+        // Steps in the order of the arc (down u when the segment runs down), so that the dash
+        // pattern is walked forwards.
+        let step = |k: i64| if du > 0.0 { first + k } else { last - 1 - k };
+        for k in 0..last - first {
+            let p = step(k);
             // Parameter range of the segment inside the pixel slab [p, p + 1).
             let (ta, tb) = {
-                let ta = (p as f64 - u0) / du;
-                let tb = (p as f64 + 1.0 - u0) / du;
+                let ta = (p as f64 - u0) * inv;
+                let tb = (p as f64 + 1.0 - u0) * inv;
                 (ta.min(tb).max(0.0), ta.max(tb).min(1.0))
             };
             if tb <= ta {
                 continue;
             }
             let mut a = cov * (tb - ta) * du.abs();
-            if dashed {
+            if let Some(d) = pattern.as_mut() {
                 let (sa, sb) = (arc + ta * len, arc + tb * len);
-                a *= (on_upto(sb) - on_upto(sa)) / (sb - sa);
+                a *= d.on_between(sa, sb) / (sb - sa);
             }
             let v = v0 + dv * 0.5 * (ta + tb) - 0.5;
-            let vf = v.floor();
+            let vf = floor(v);
             let f = v - vf;
             let q = vf as i64;
             if steep {
@@ -115,6 +105,87 @@ pub fn draw_hairline(
             }
         }
         arc += len;
+    }
+}
+
+/// A position in a dash pattern (on/off lengths, restarting at arc length 0), walked forwards
+/// along the arc.
+struct DashCursor<'a> {
+    dash: &'a [f64],
+    period: f64,
+    /// Arc length the cursor stands at.
+    at: f64,
+    /// Entry of the pattern it stands in (even: on) and what is left of that entry.
+    entry: usize,
+    left: f64,
+}
+
+impl<'a> DashCursor<'a> {
+    /// A cursor at arc length 0, or `None` for a solid line (fewer than two entries, a
+    /// non-positive period or a negative or non-finite entry).
+    fn new(dash: &'a [f64]) -> Option<DashCursor<'a>> {
+        let period: f64 = dash.iter().sum();
+        let usable = dash.len() >= 2
+            && period > 0.0
+            && period.is_finite()
+            && dash.iter().all(|d| d.is_finite() && *d >= 0.0);
+        usable.then(|| DashCursor {
+            dash,
+            period,
+            at: 0.0,
+            entry: 0,
+            left: dash[0],
+        })
+    }
+
+    /// Put the cursor at arc length `s` ≥ 0.
+    fn seek(&mut self, s: f64) {
+        // s ≥ 0, so truncation is the floor.
+        let whole = (s / self.period) as i64 as f64;
+        let mut rest = (s - whole * self.period).max(0.0);
+        self.entry = 0;
+        while rest >= self.dash[self.entry] && self.entry + 1 < self.dash.len() {
+            rest -= self.dash[self.entry];
+            self.entry += 1;
+        }
+        self.left = (self.dash[self.entry] - rest).max(0.0);
+        self.at = s;
+    }
+
+    /// Length of "on" between arc lengths `sa` ≤ `sb`, leaving the cursor at `sb`; a jump
+    /// from where the cursor stood (a clipped stretch) seeks first.
+    fn on_between(&mut self, sa: f64, sb: f64) -> f64 {
+        if (sa - self.at).abs() > 1e-9 * self.period.max(sa.abs()) {
+            self.seek(sa);
+        }
+        let mut todo = sb - sa;
+        let mut on = 0.0;
+        while todo > 0.0 {
+            if self.left <= 0.0 {
+                self.entry = (self.entry + 1) % self.dash.len();
+                self.left = self.dash[self.entry];
+                continue;
+            }
+            let m = todo.min(self.left);
+            if self.entry % 2 == 0 {
+                on += m;
+            }
+            self.left -= m;
+            todo -= m;
+        }
+        self.at = sb;
+        on
+    }
+}
+
+/// `x.floor()` for finite `x` well inside the range of i64, without the library call (the
+/// same value: truncation, one less where it rounded up).
+fn floor(x: f64) -> f64 {
+    let t = x as i64 as f64;
+    if t > x {
+        t - 1.0
+    } else {
+        t
     }
 }
 
@@ -204,6 +275,53 @@ mod tests {
                 }
             }
             assert!(inside > 10, "line {k}: {inside} pixels inside");
+        }
+    }
+
+    #[test]
+    fn the_dash_cursor_measures_the_on_length_walking_and_jumping() {
+        // Reference: the share of fine sub-steps whose middle falls in an "on" entry.
+        let dash = [4.0, 2.0, 1.0, 2.0];
+        let is_on = |s: f64| {
+            let mut r = s % 9.0;
+            for (i, d) in dash.iter().enumerate() {
+                if r < *d {
+                    return i % 2 == 0;
+                }
+                r -= d;
+            }
+            false
+        };
+        let reference = |a: f64, b: f64| {
+            let n = 20_000;
+            let h = (b - a) / n as f64;
+            (0..n).filter(|&k| is_on(a + (k as f64 + 0.5) * h)).count() as f64 * h
+        };
+        let mut c = DashCursor::new(&dash).unwrap();
+        // Steps of 0.7 from 0 to 30, then a jump to 100.25 and steps of 1.3, then back to 3.
+        let mut pieces: Vec<(f64, f64)> = (0..43)
+            .map(|k| (k as f64 * 0.7, (k + 1) as f64 * 0.7))
+            .collect();
+        pieces.extend((0..10).map(|k| (100.25 + k as f64 * 1.3, 100.25 + (k + 1) as f64 * 1.3)));
+        pieces.push((3.0, 12.5));
+        for (a, b) in pieces {
+            let got = c.on_between(a, b);
+            let want = reference(a, b);
+            assert!((got - want).abs() < 1e-3, "[{a}, {b}]: {got} vs {want}");
+        }
+        assert!(DashCursor::new(&[3.0]).is_none());
+        assert!(DashCursor::new(&[0.0, 0.0]).is_none());
+        assert!(DashCursor::new(&[1.0, f64::NAN]).is_none());
+    }
+
+    #[test]
+    fn the_fast_floor_is_the_floor() {
+        for k in -4000..4000 {
+            let x = k as f64 * 0.37 - 0.5;
+            assert_eq!(floor(x).to_bits(), x.floor().to_bits(), "{x}");
+        }
+        for x in [-2.0, -1.0, -0.5, 0.0, 0.5, 1.0, 1e12 + 0.5, -1e12 - 0.5] {
+            assert_eq!(floor(x), x.floor(), "{x}");
         }
     }
 

@@ -11,6 +11,7 @@ use super::stroke::{draw_stroke, DeviceRect, StrokeStyle};
 use super::text::{glyph, TextBlock};
 use fanmark_core::{Error, Result};
 use rayon::prelude::*;
+use std::rc::Rc;
 use tiny_skia::{FillRule, Mask, Paint, PathBuilder, Pixmap, Transform};
 
 /// Pixel rectangle (x0, y0, x1, y1), half-open, that a page rectangle in pt covers at `scale`
@@ -54,13 +55,14 @@ pub fn draw_list(fig: &Figure, list: &DisplayList) -> Result<Pixmap> {
             .heatmap
             .as_ref()
             .expect("called for panels with a heat map");
-        heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h)
+        Rc::new(heatmap_layer(hm, m, p.x_axis.range, p.y_axis.range, w, h))
     })
 }
 
 /// A source of heat-map layers: (panel, mapping, width, height) → straight-alpha RGBA, as
-/// [`heatmap_layer`] makes them. The viewer passes a cache here.
-pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Vec<u8> + 'a;
+/// [`heatmap_layer`] makes them, shared so that a cache hands its layer out without a copy.
+/// The viewer passes a cache here.
+pub type LayerSource<'a> = dyn FnMut(&Panel, &ColorMapping, u32, u32) -> Rc<Vec<u8>> + 'a;
 
 /// Draw an already laid-out figure, taking each heat-map layer from `layer`.
 pub fn draw_list_with(fig: &Figure, list: &DisplayList, layer: &mut LayerSource) -> Result<Pixmap> {
@@ -78,7 +80,27 @@ pub(crate) fn draw_list_banded(
     let mut pm = Pixmap::new(w, h).ok_or_else(|| {
         Error::invalid("figure", format!("cannot allocate a {w}×{h} pixel image"))
     })?;
-    pm.fill(tiny_skia::Color::WHITE);
+    draw_list_onto_banded(&mut pm, fig, list, layer, band_rows);
+    Ok(pm)
+}
+
+/// Draw an already laid-out figure onto `pm` with the page's top-left corner at pixel (0, 0):
+/// the page's pixels inside `pm` are filled white first, the rest of `pm` is left as it was;
+/// what lies outside `pm` is cut off. The same pixels as [`draw_list_with`] where both draw.
+pub fn draw_list_onto(pm: &mut Pixmap, fig: &Figure, list: &DisplayList, layer: &mut LayerSource) {
+    draw_list_onto_banded(pm, fig, list, layer, BAND_ROWS);
+}
+
+/// [`draw_list_onto`] with vector items drawn in bands of `band_rows` rows.
+fn draw_list_onto_banded(
+    pm: &mut Pixmap,
+    fig: &Figure,
+    list: &DisplayList,
+    layer: &mut LayerSource,
+    band_rows: usize,
+) {
+    let (w, h) = fig.pixel_size();
+    fill_white(pm, w, h);
     let scale = w as f64 / list.width;
     // Vector items since the last heat map or colour strip, drawn together in bands.
     let mut run: Vec<&Item> = Vec::new();
@@ -87,7 +109,7 @@ pub(crate) fn draw_list_banded(
             run.push(item);
             continue;
         }
-        draw_in_bands(&mut pm, &run, scale, band_rows);
+        draw_in_bands(pm, &run, scale, band_rows);
         run.clear();
         match item {
             Item::HeatMap { panel, rect } => {
@@ -101,7 +123,7 @@ pub(crate) fn draw_list_banded(
                 if img.len() != (pw * ph * 4) as usize {
                     continue;
                 }
-                blit_opaque(&mut pm, &img, x0, y0, pw, ph);
+                blit_opaque(pm, &img, x0, y0, pw, ph);
             }
             Item::ColorStrip { panel, rect } => {
                 let Some(hm) = &fig.panels[*panel].heatmap else {
@@ -110,13 +132,21 @@ pub(crate) fn draw_list_banded(
                 let (x0, y0, x1, y1) = pixel_rect(rect, scale);
                 let (pw, ph) = ((x1 - x0).max(0) as u32, (y1 - y0).max(0) as u32);
                 let img = strip_rgba(&hm.colors, pw, ph);
-                blit_opaque(&mut pm, &img, x0, y0, pw, ph);
+                blit_opaque(pm, &img, x0, y0, pw, ph);
             }
             _ => {}
         }
     }
-    draw_in_bands(&mut pm, &run, scale, band_rows);
-    Ok(pm)
+    draw_in_bands(pm, &run, scale, band_rows);
+}
+
+/// Fill the top-left `w`×`h` pixels of `pm` (as far as it reaches) opaque white.
+fn fill_white(pm: &mut Pixmap, w: u32, h: u32) {
+    let stride = pm.width() as usize * 4;
+    let n = w.min(pm.width()) as usize * 4;
+    for row in pm.data_mut().chunks_exact_mut(stride).take(h as usize) {
+        row[..n].fill(255);
+    }
 }
 
 /// Rows of the page in each band when vector items are drawn in parallel. Fixed, so the
@@ -288,28 +318,37 @@ pub fn strip_rgba(colors: &[[u8; 3]], width: u32, height: u32) -> Vec<u8> {
     out
 }
 
-/// Copy straight-alpha RGBA whose alpha is 0 or 255 into the pixmap at (x0, y0).
+/// Copy straight-alpha RGBA whose alpha is 0 or 255 into the pixmap at (x0, y0): the opaque
+/// pixels, rows in parallel (a wholly opaque row in one copy).
 fn blit_opaque(pm: &mut Pixmap, img: &[u8], x0: i64, y0: i64, w: u32, h: u32) {
     let (pw, ph) = (pm.width() as i64, pm.height() as i64);
-    let data = pm.data_mut();
-    for r in 0..h as i64 {
-        let y = y0 + r;
-        if y < 0 || y >= ph {
-            continue;
-        }
-        for c in 0..w as i64 {
-            let x = x0 + c;
-            if x < 0 || x >= pw {
-                continue;
-            }
-            let s = ((r * w as i64 + c) * 4) as usize;
-            if img[s + 3] == 0 {
-                continue;
-            }
-            let d = ((y * pw + x) * 4) as usize;
-            data[d..d + 4].copy_from_slice(&img[s..s + 4]);
-        }
+    let (cx0, cx1) = (x0.max(0), (x0 + w as i64).min(pw));
+    let (cy0, cy1) = (y0.max(0), (y0 + h as i64).min(ph));
+    if cx0 >= cx1 || cy0 >= cy1 {
+        return;
     }
+    let stride = pw as usize * 4;
+    let row_bytes = w as usize * 4;
+    pm.data_mut()
+        .par_chunks_mut(stride)
+        .enumerate()
+        .skip(cy0 as usize)
+        .take((cy1 - cy0) as usize)
+        .for_each(|(y, out)| {
+            let r = (y as i64 - y0) as usize;
+            let src = &img[r * row_bytes..(r + 1) * row_bytes];
+            let src = &src[(cx0 - x0) as usize * 4..(cx1 - x0) as usize * 4];
+            let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
+            if src.chunks_exact(4).all(|p| p[3] == 255) {
+                out.copy_from_slice(src);
+                return;
+            }
+            for (d, s) in out.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
+                if s[3] != 0 {
+                    d.copy_from_slice(s);
+                }
+            }
+        });
 }
 
 /// Fill and/or stroke a polyline given in pt; `at` is (px per pt, device pixel at the pixmap's
@@ -511,6 +550,27 @@ mod tests {
         assert_eq!(crc32(b"123456789"), 0xCBF4_3926);
         // The IEND chunk's CRC over its type is the well-known AE 42 60 82.
         assert_eq!(crc32(b"IEND"), 0xAE42_6082);
+    }
+
+    #[test]
+    fn blitting_copies_the_opaque_pixels_that_land_inside() {
+        // A 3 × 2 image with one transparent pixel, put half outside a 4 × 3 pixmap.
+        let img: Vec<u8> = (0..6u8)
+            .flat_map(|k| [10 * k, 1, 2, if k == 4 { 0 } else { 255 }])
+            .collect();
+        let mut pm = Pixmap::new(4, 3).unwrap();
+        pm.fill(tiny_skia::Color::from_rgba8(7, 7, 7, 255));
+        blit_opaque(&mut pm, &img, 2, 1, 3, 2);
+        for y in 0..3i64 {
+            for x in 0..4i64 {
+                let p = pm.pixel(x as u32, y as u32).unwrap();
+                let (c, r) = (x - 2, y - 1);
+                let k = r * 3 + c;
+                let inside = (0..3).contains(&c) && (0..2).contains(&r) && k != 4;
+                let want = if inside { (10 * k) as u8 } else { 7 };
+                assert_eq!(p.red(), want, "({x}, {y})");
+            }
+        }
     }
 
     #[test]

@@ -9,13 +9,13 @@ use super::data::ChannelChoice;
 use super::heat::{heat_after_pan, heat_of};
 use super::interim::{scale_region, shift_region, PixelMap};
 use super::keys::help_lines;
-use super::layers::{copy_opaque, draw_overlay_item, OverlayLayer, PixelRect};
+use super::layers::{draw_overlay_item, OverlayLayer, PixelRect};
 use super::state::{CutKind, FrameKind, Mode, PlotArea, ScaleKind, ViewState, Viewport};
 use crate::figure::draw::Item;
 use crate::figure::geom::Rect;
 use crate::figure::heatmap::ColorMapping;
 use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
-use crate::figure::raster::{clip_mask, draw_item, draw_list_with, heatmap_layer, pixel_rect};
+use crate::figure::raster::{draw_item, draw_list_onto, heatmap_layer, pixel_rect};
 use crate::figure::scene::{
     AxisSpec, ColorBar, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers, Panel,
     Polyline, TextLabel, ValueRange,
@@ -25,8 +25,9 @@ use fanmark_core::constants::E_OVER_H;
 use fanmark_core::line::{Family, FrameRect, Line};
 use fanmark_core::{Rational, Result};
 use ndarray::Array2;
+use std::rc::Rc;
 use std::sync::Arc;
-use tiny_skia::{Mask, Pixmap};
+use tiny_skia::Pixmap;
 
 /// Screen resolution at scale factor 1, dots per inch (the common desktop convention).
 pub const SCREEN_DPI: f64 = 96.0;
@@ -535,8 +536,6 @@ struct Base {
     plot: Option<PlotGeometry>,
     /// The frame around the plot, drawn over the overlays.
     frame: Option<Item>,
-    /// Clip of the plot for the pointer overlay, window-sized.
-    clip: Option<Mask>,
 }
 
 /// Everything the kept overlay depends on apart from the viewport.
@@ -638,11 +637,14 @@ fn no_frame() -> fanmark_core::Error {
     fanmark_core::Error::invalid("viewer", "cannot allocate the frame")
 }
 
+/// The last heat-map layer: its key, its size (px) and its straight-alpha RGBA, shared.
+type KeptLayer = (LayerKey, (u32, u32), Rc<Vec<u8>>);
+
 /// Renders states to pixels, keeping the last heat map, base layer and overlay layer so that
 /// a frame redraws only what its state changed.
 #[derive(Default)]
 pub struct Renderer {
-    layer: Option<(LayerKey, (u32, u32), Vec<u8>)>,
+    layer: Option<KeptLayer>,
     heat: Option<(LayerKey, HeatMap)>,
     base: Option<Base>,
     overlay: Option<Overlay>,
@@ -826,7 +828,7 @@ impl Renderer {
                 Some(d) => d,
                 None => {
                     let items = kept_items(s, g);
-                    let bands = rayon::current_num_threads().clamp(2, 8);
+                    let bands = overlay_bands(g.pixels);
                     let layer = OverlayLayer::draw(&items, g.scale, g.pixels, bands)
                         .ok_or_else(no_frame)?;
                     self.overlays_made += 1;
@@ -841,10 +843,8 @@ impl Renderer {
             if let (Some(o), false) = (&self.overlay, scaled) {
                 o.layer.composite(&mut pm, shift, g.pixels);
             }
+            // Clip masks (for filled markers) are made as items ask for them.
             let mut masks = Vec::new();
-            if let Some(clip) = &base.clip {
-                masks.push((g.rect, clip.clone()));
-            }
             for item in &pointer_items(s, g) {
                 draw_item(&mut pm, item, g.scale, (0.0, 0.0), &mut masks);
             }
@@ -893,39 +893,35 @@ impl Renderer {
         let cache = &mut self.layer;
         let made = &mut self.layers_made;
         let heat_key = &key.heat;
-        let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Vec<u8> {
+        let mut source = |p: &Panel, m: &ColorMapping, pw: u32, ph: u32| -> Rc<Vec<u8>> {
             if let Some((k, size, img)) = cache.as_ref() {
                 if k == heat_key && *size == (pw, ph) {
-                    return img.clone();
+                    return Rc::clone(img);
                 }
             }
             if p.heatmap.is_none() {
-                return Vec::new();
+                return Rc::new(Vec::new());
             }
-            let img = heatmap_layer(full_heat, m, p.x_axis.range, p.y_axis.range, pw, ph);
+            let img = Rc::new(heatmap_layer(
+                full_heat,
+                m,
+                p.x_axis.range,
+                p.y_axis.range,
+                pw,
+                ph,
+            ));
             *made += 1;
-            *cache = Some((heat_key.clone(), (pw, ph), img.clone()));
+            *cache = Some((heat_key.clone(), (pw, ph), Rc::clone(&img)));
             img
         };
-        let fpm = draw_list_with(&c.fig, &c.list, &mut source)?;
         let mut pixmap = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
-        pixmap.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
-        copy_opaque(&mut pixmap, &fpm);
-        let clip = c.plot.map(|g| {
-            clip_mask(
-                &g.rect,
-                g.scale,
-                (0.0, 0.0),
-                pixmap.width(),
-                pixmap.height(),
-            )
-        });
+        draw_list_onto(&mut pixmap, &c.fig, &c.list, &mut source);
+        fill_outside_page(&mut pixmap, c.fig.pixel_size());
         Ok(Base {
             key,
             pixmap,
             plot: c.plot,
             frame: c.frame,
-            clip,
         })
     }
 }
@@ -970,12 +966,18 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
     let heat = heat_of(s, plot_w.min(4096), plot_h.min(4096));
     let cut = cut_of(s);
     let c = chrome(s, w, h, light_heat(&heat), cut.as_ref())?;
-    let fpm = draw_list_with(&c.fig, &c.list, &mut |p, m, pw, ph| {
-        heatmap_layer(&heat, m, p.x_axis.range, p.y_axis.range, pw, ph)
-    })?;
     let mut pm = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
-    pm.fill(tiny_skia::Color::from_rgba8(235, 235, 235, 255));
-    copy_opaque(&mut pm, &fpm);
+    draw_list_onto(&mut pm, &c.fig, &c.list, &mut |p, m, pw, ph| {
+        Rc::new(heatmap_layer(
+            &heat,
+            m,
+            p.x_axis.range,
+            p.y_axis.range,
+            pw,
+            ph,
+        ))
+    });
+    fill_outside_page(&mut pm, c.fig.pixel_size());
     if let Some(g) = &c.plot {
         let mut masks = Vec::new();
         // The kept items drawn in place, then every pixel outside the plot put back: the clip.
@@ -991,6 +993,39 @@ pub fn render_direct(s: &ViewState, w: u32, h: u32) -> Result<Rendered> {
     let plot = c.plot.map(|g| g.area());
     finish(&mut pm, s, plot);
     Ok(Rendered { pixmap: pm, plot })
+}
+
+/// Rows of the plot in each band of the overlay layer: a band's pixels stay in a core's cache
+/// while every line crosses it.
+const OVERLAY_BAND_ROWS: i64 = 64;
+
+/// Number of bands the overlay layer over `plot` is drawn in: one per [`OVERLAY_BAND_ROWS`]
+/// rows, at most 32, but at least one per worker (and at least two).
+fn overlay_bands(plot: PixelRect) -> usize {
+    bands_for(plot.3 - plot.1, rayon::current_num_threads())
+}
+
+/// [`overlay_bands`] for a plot `rows` high drawn by `workers` threads.
+fn bands_for(rows: i64, workers: usize) -> usize {
+    let rows = rows.max(1);
+    let by_rows = (rows + OVERLAY_BAND_ROWS - 1) / OVERLAY_BAND_ROWS;
+    (by_rows as usize).min(32).max(workers).max(2)
+}
+
+/// Colour of the window around the figure's page (the status line's background).
+const WINDOW_RGBA: [u8; 4] = [235, 235, 235, 255];
+
+/// Fill every pixel of `pm` outside the top-left `page` (width, height) pixels with
+/// [`WINDOW_RGBA`].
+fn fill_outside_page(pm: &mut Pixmap, page: (u32, u32)) {
+    let stride = pm.width() as usize * 4;
+    let n = (page.0.min(pm.width()) as usize * 4).min(stride);
+    for (y, row) in pm.data_mut().chunks_exact_mut(stride).enumerate() {
+        let from = if (y as u32) < page.1 { n } else { 0 };
+        for px in row[from..].chunks_exact_mut(4) {
+            px.copy_from_slice(&WINDOW_RGBA);
+        }
+    }
 }
 
 /// Copy back from `before` every pixel of `pm` outside the half-open pixel rectangle `r`.
@@ -1196,5 +1231,23 @@ pub fn draw_string(pm: &mut Pixmap, text: &str, x: f64, y: f64, px: f32, color: 
             }
         }
         pen += m.advance_width as f64;
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::bands_for;
+
+    #[test]
+    fn overlay_bands_follow_the_rows_but_never_fall_below_the_workers() {
+        // 850 rows in bands of 64: 14 bands.
+        assert_eq!(bands_for(850, 2), 14);
+        // A short plot still gives each worker a band; a tall one stops at 32.
+        assert_eq!(bands_for(40, 2), 2);
+        assert_eq!(bands_for(40, 6), 6);
+        assert_eq!(bands_for(10_000, 2), 32);
+        // More workers than the row count asks for (a large machine): one each, no panic.
+        assert_eq!(bands_for(10_000, 64), 64);
+        assert_eq!(bands_for(0, 1), 2);
     }
 }

@@ -173,32 +173,38 @@ fn hairline_of(item: &Item, scale: f64) -> Option<Hairline<'_>> {
     }
 }
 
-/// Premultiplied source-over of `src` onto `dst`, both RGBA of the same length.
+/// Premultiplied source-over of `src` onto `dst`, both RGBA of the same length. Runs of
+/// transparent source pixels (most of an overlay) are passed over eight bytes at a time.
 fn over(dst: &mut [u8], src: &[u8]) {
-    for (d, s) in dst.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
-        match s[3] {
-            0 => {}
-            255 => d.copy_from_slice(s),
-            a => {
-                let k = 255 - a as u32;
-                for c in 0..4 {
-                    // Rounded x · k / 255 without a division.
-                    let t = d[c] as u32 * k + 128;
-                    d[c] = (s[c] as u32 + ((t + (t >> 8)) >> 8)).min(255) as u8;
-                }
+    let mut d = dst.chunks_exact_mut(8);
+    let mut s = src.chunks_exact(8);
+    for (d2, s2) in (&mut d).zip(&mut s) {
+        if let Ok(bytes) = <[u8; 8]>::try_from(s2) {
+            if u64::from_ne_bytes(bytes) == 0 {
+                continue;
             }
         }
+        over_pixel(&mut d2[..4], &s2[..4]);
+        over_pixel(&mut d2[4..], &s2[4..]);
+    }
+    if let (Some(d1), Some(s1)) = (d.into_remainder().get_mut(..4), s.remainder().get(..4)) {
+        over_pixel(d1, s1);
     }
 }
 
-/// Copy the opaque pixmap `src` into `dst` with its top-left corner at window pixel (0, 0).
-pub fn copy_opaque(dst: &mut Pixmap, src: &Pixmap) {
-    let (dw, sw) = (dst.width() as usize * 4, src.width() as usize * 4);
-    let n = dw.min(sw);
-    let rows = dst.height().min(src.height()) as usize;
-    let sd = src.data();
-    for (r, out) in dst.data_mut().chunks_exact_mut(dw).take(rows).enumerate() {
-        out[..n].copy_from_slice(&sd[r * sw..r * sw + n]);
+/// Premultiplied source-over of one pixel.
+fn over_pixel(d: &mut [u8], s: &[u8]) {
+    match s[3] {
+        0 => {}
+        255 => d.copy_from_slice(s),
+        a => {
+            let k = 255 - a as u32;
+            for c in 0..4 {
+                // Rounded x · k / 255 without a division.
+                let t = d[c] as u32 * k + 128;
+                d[c] = (s[c] as u32 + ((t + (t >> 8)) >> 8)).min(255) as u8;
+            }
+        }
     }
 }
 
@@ -216,6 +222,21 @@ mod tests {
         for c in 0..4 {
             let exact = src[c] as f64 + dst[c] as f64 * (255.0 - 128.0) / 255.0;
             assert!((out[c] as f64 - exact).abs() <= 0.5 + 1e-9, "{out:?}");
+        }
+        // Runs of pixels, an odd count: each pixel as alone, transparent ones untouched.
+        let srcs = [
+            [0u8, 0, 0, 0],
+            src,
+            [9, 9, 9, 255],
+            [0, 0, 0, 0],
+            [0, 0, 0, 0],
+        ];
+        let mut row: Vec<u8> = (0..5).flat_map(|_| dst).collect();
+        over(&mut row, &srcs.concat());
+        for (k, s) in srcs.iter().enumerate() {
+            let mut one = dst;
+            over(&mut one, s);
+            assert_eq!(&row[4 * k..4 * k + 4], &one, "pixel {k}");
         }
         let mut clear = dst;
         over(&mut clear, &[0, 0, 0, 0]);

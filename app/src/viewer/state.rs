@@ -451,6 +451,9 @@ pub struct ViewState {
 
 /// Most undo steps kept.
 const UNDO_LIMIT: usize = 500;
+/// Widest view zooming out reaches, in each axis, as a multiple of the whole map's extent in
+/// the frame.
+pub const MAX_ZOOM_OUT: f64 = 4.0;
 /// Pointer travel (px) below which a press and release is a click.
 const CLICK_TOLERANCE: f64 = 4.0;
 
@@ -668,17 +671,33 @@ impl ViewState {
         }
     }
 
+    /// Zoom by `factor` (> 1 in) about the pixel (px, py), which keeps its place. Zooming out
+    /// stops, axis by axis, where the view would grow past [`MAX_ZOOM_OUT`] times the whole
+    /// map's extent in the frame (a view already wider is not made wider).
     fn zoom_at(&mut self, px: f64, py: f64, factor: f64) {
         if !(factor > 0.0 && factor.is_finite()) {
             return;
         }
         let (cx, cy) = self.px_to_frame(px, py);
         let v = self.view;
+        let full = self.full_view(self.frame);
+        // The factor along one axis: no smaller than what brings the view to the limit.
+        let along = |now: f64, whole: f64| {
+            let limit = MAX_ZOOM_OUT * whole.abs();
+            if factor >= 1.0 || !(limit > 0.0 && limit.is_finite()) {
+                return factor;
+            }
+            factor.max((now / limit).min(1.0))
+        };
+        let (fx, fy) = (
+            along(v.x1 - v.x0, full.x1 - full.x0),
+            along(v.y1 - v.y0, full.y1 - full.y0),
+        );
         self.set_view(Viewport {
-            x0: cx - (cx - v.x0) / factor,
-            x1: cx + (v.x1 - cx) / factor,
-            y0: cy - (cy - v.y0) / factor,
-            y1: cy + (v.y1 - cy) / factor,
+            x0: cx - (cx - v.x0) / fx,
+            x1: cx + (v.x1 - cx) / fx,
+            y0: cy - (cy - v.y0) / fy,
+            y1: cy + (v.y1 - cy) / fy,
         });
     }
 

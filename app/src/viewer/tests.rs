@@ -131,6 +131,36 @@ fn wheel_zoom_keeps_the_point_under_the_pointer() {
 }
 
 #[test]
+fn wheel_zoom_out_stops_at_four_times_the_map_in_each_axis() {
+    use super::state::{FrameKind, MAX_ZOOM_OUT};
+    for frame in [FrameKind::GateField, FrameKind::DensityField] {
+        let mut s = state();
+        s.apply(Action::SetFrame(frame));
+        s.apply(Action::ResetView);
+        let full = s.full_view(frame);
+        let (fw, fh) = (full.x1 - full.x0, full.y1 - full.y0);
+        let p = (400.0, 300.0);
+        let kept = s.px_to_frame(p.0, p.1);
+        // Thirty notches out would make the view 1.2^30 ≈ 237 times wider without the limit.
+        for _ in 0..30 {
+            s.apply(Action::ZoomAt(p.0, p.1, 1.0 / 1.2));
+        }
+        let (w, h) = (s.view.x1 - s.view.x0, s.view.y1 - s.view.y0);
+        assert!(close(w, MAX_ZOOM_OUT * fw, 1e-9), "{frame:?}: {w} vs {fw}");
+        assert!(close(h, MAX_ZOOM_OUT * fh, 1e-9), "{frame:?}: {h} vs {fh}");
+        // The point under the pointer stayed put all the way.
+        let now = s.px_to_frame(p.0, p.1);
+        assert!(close(kept.0, now.0, 1e-9) && close(kept.1, now.1, 1e-9));
+        // At the limit a further notch out changes nothing; one in still zooms.
+        let at_limit = s.view;
+        s.apply(Action::ZoomAt(p.0, p.1, 0.5));
+        assert_eq!(s.view, at_limit);
+        s.apply(Action::ZoomAt(p.0, p.1, 1.2));
+        assert!(close(s.view.x1 - s.view.x0, MAX_ZOOM_OUT * fw / 1.2, 1e-9));
+    }
+}
+
+#[test]
 fn box_zoom_shows_exactly_the_box() {
     let mut s = state();
     let a = s.px_to_frame(200.0, 600.0);
@@ -782,4 +812,43 @@ fn wheel_zoom_interim_frames_scale_the_settled_picture_about_the_cursor() {
     // may move the plot).
     r.render_settled(&mut s, w, h, 1.0).unwrap();
     assert!(r.layers_made > made.0);
+}
+
+#[test]
+fn a_kept_heat_map_layer_gives_the_fresh_frame_and_a_new_palette_redraws_it() {
+    use super::draw::Renderer;
+    let mut s = state();
+    s.apply(Action::CycleCut);
+    let (w, h) = (640, 420);
+    let mut r = Renderer::default();
+    let mid = |s: &ViewState| (0.5 * (s.plot.x0 + s.plot.x1), 0.5 * (s.plot.y0 + s.plot.y1));
+    r.render_settled(&mut s, w, h, 1.0).unwrap();
+    let (x, y) = mid(&s);
+    s.apply(Action::Pointer(x, y));
+    r.render_settled(&mut s, w, h, 1.0).unwrap();
+    let made = r.layers_made;
+    // A pointer move changes the row cut, so the base is drawn again; the heat map is not.
+    let cut = super::draw::cut_of(&s);
+    s.apply(Action::Pointer(x + 5.0, y + 30.0));
+    assert!(
+        cut.is_some() && super::draw::cut_of(&s) != cut,
+        "the cut moved"
+    );
+    let kept = r.render(&s, w, h).unwrap();
+    assert_eq!(r.layers_made, made, "the kept layer was used");
+    let fresh = Renderer::default().render(&s, w, h).unwrap();
+    assert!(
+        kept.pixmap.data() == fresh.pixmap.data(),
+        "kept layer frame = fresh frame"
+    );
+    // Another palette is another key: the layer is made again, and equals a fresh one.
+    s.apply(Action::CyclePalette(1));
+    let next = r.render(&s, w, h).unwrap();
+    assert_eq!(r.layers_made, made + 1);
+    let fresh = Renderer::default().render(&s, w, h).unwrap();
+    assert!(next.pixmap.data() == fresh.pixmap.data());
+    assert!(
+        next.pixmap.data() != kept.pixmap.data(),
+        "the palette shows"
+    );
 }

@@ -9,6 +9,7 @@ use super::project;
 use super::state::{Action, Button, Drag, Effect, ViewState};
 use crate::figure::{self, Format};
 use anyhow::{anyhow, Context as _};
+use rayon::prelude::*;
 use std::io::Write as _;
 use std::num::NonZeroU32;
 use std::path::PathBuf;
@@ -179,13 +180,7 @@ impl App {
             .surface
             .buffer_mut()
             .map_err(|e| anyhow!("window buffer: {e}"))?;
-        let data = r.pixmap.data();
-        for (i, px) in buf.iter_mut().enumerate() {
-            let k = i * 4;
-            if k + 2 < data.len() {
-                *px = (data[k] as u32) << 16 | (data[k + 1] as u32) << 8 | data[k + 2] as u32;
-            }
-        }
+        to_softbuffer(r.pixmap.data(), &mut buf);
         buf.present().map_err(|e| anyhow!("presenting: {e}"))?;
         if !self.presented {
             self.presented = true;
@@ -194,6 +189,21 @@ impl App {
         }
         Ok(())
     }
+}
+
+/// Pixels the window buffer converts per parallel task.
+const CONVERT_CHUNK: usize = 64 * 1024;
+
+/// Convert opaque RGBA bytes to softbuffer's 0RGB words, in parallel chunks; words past the end
+/// of `rgba` are left as they are.
+fn to_softbuffer(rgba: &[u8], out: &mut [u32]) {
+    out.par_chunks_mut(CONVERT_CHUNK)
+        .zip(rgba.par_chunks(CONVERT_CHUNK * 4))
+        .for_each(|(o, d)| {
+            for (px, c) in o.iter_mut().zip(d.chunks_exact(4)) {
+                *px = (c[0] as u32) << 16 | (c[1] as u32) << 8 | c[2] as u32;
+            }
+        });
 }
 
 impl ApplicationHandler for App {
@@ -399,5 +409,26 @@ pub fn run(state: ViewState, out: Outputs) -> anyhow::Result<()> {
     match app.error {
         Some(e) => Err(e),
         None => Ok(()),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn window_words_are_0rgb_of_each_pixel_across_chunks() {
+        // More pixels than one chunk, so that the chunks' seams are crossed.
+        let n = CONVERT_CHUNK + 37;
+        let rgba: Vec<u8> = (0..n)
+            .flat_map(|i| [(i % 251) as u8, (i % 13) as u8, (i % 7) as u8, 255])
+            .collect();
+        let mut out = vec![0xdead_beef_u32; n + 3];
+        to_softbuffer(&rgba, &mut out);
+        for (i, &word) in out[..n].iter().enumerate() {
+            let want = ((i % 251) as u32) << 16 | ((i % 13) as u32) << 8 | (i % 7) as u32;
+            assert_eq!(word, want, "pixel {i}");
+        }
+        assert!(out[n..].iter().all(|&w| w == 0xdead_beef));
     }
 }
