@@ -185,62 +185,56 @@ pub fn find_glitches(y: &[f64]) -> Vec<usize> {
     if n < 7 {
         return Vec::new();
     }
-    // Residual of each point against the cubic through its neighbours (NaN at the ends), and
-    // its size.
-    let res: Vec<f64> = (0..n)
-        .map(|i| {
-            if i < 2 || i + 2 >= n {
-                return f64::NAN;
-            }
-            y[i] - (-y[i - 2] + 4.0 * y[i - 1] + 4.0 * y[i + 1] - y[i + 2]) / 6.0
-        })
-        .collect();
-    let r: Vec<f64> = res.iter().map(|v| v.abs()).collect();
+    // Residual of each point against the cubic through its neighbours (NaN at the ends).
+    let mut res = vec![f64::NAN; n];
+    for (k, w) in y.windows(5).enumerate() {
+        res[k + 2] = w[2] - (-w[0] + 4.0 * w[1] + 4.0 * w[3] - w[4]) / 6.0;
+    }
     // Noise is judged locally (±20 points): measured noise often scales with the signal, so
     // one figure for a whole sweep would call every point of a large peak a glitch.
     const HALF: usize = 20;
+    let mut out = Vec::new();
     // First the cheap local tests, without branches so the loop runs at full speed:
     // a finite residual, the largest within two points (NaN neighbours do not count), and a
     // point clear of both neighbours by more than twice their own difference (a narrow real
     // peak rises through its neighbours, a spike jumps past).
-    let cheap = |i: usize| -> (bool, f64) {
-        let ri = r[i];
-        let (a, b) = (y[i - 1], y[i + 1]);
-        let excess = if res[i] > 0.0 {
-            y[i] - a.max(b)
+    for (k, (rw, yw)) in res.windows(5).zip(y.windows(5)).enumerate() {
+        let i = k + 2;
+        let ri = rw[2].abs();
+        let (a, b) = (yw[1], yw[3]);
+        let excess = if rw[2] > 0.0 {
+            yw[2] - a.max(b)
         } else {
-            a.min(b) - y[i]
+            a.min(b) - yw[2]
         };
         let pass = ri.is_finite()
-            & !(r[i - 2] > ri)
-            & !(r[i - 1] > ri)
-            & !(r[i + 1] > ri)
-            & !(r[i + 2] > ri)
+            & !(rw[0].abs() > ri)
+            & !(rw[1].abs() > ri)
+            & !(rw[3].abs() > ri)
+            & !(rw[4].abs() > ri)
             & (excess > 2.0 * (b - a).abs())
             & (excess > 0.0);
-        (pass, excess)
-    };
-    let mut out = Vec::new();
-    for i in 2..n - 2 {
-        let (pass, excess) = cheap(i);
         if !pass {
             continue;
         }
-        let ri = r[i];
         // The robust noise σ = 1.4826 · median |residual| of the neighbourhood (its own
         // ±2 points excluded). The spike must exceed 25 σ in residual and in excess, and σ
         // must be positive. Since σ(v) grows with v, "median satisfies it" is "more than
         // half of the values satisfy it": counted, not sorted.
         let (lo, hi) = (i.saturating_sub(HALF), (i + HALF).min(n - 1));
         let (mut finite, mut below, mut zero) = (0usize, 0usize, 0usize);
-        for &v in r[lo..i - 2].iter().chain(&r[i + 3..=hi]) {
-            if v.is_finite() {
-                finite += 1;
+        let mut count = |side: &[f64]| {
+            for &v in side {
+                let v = v.abs();
                 let sigma = 1.4826 * v;
-                below += usize::from(ri > 25.0 * sigma && excess > 25.0 * sigma);
-                zero += usize::from(!(sigma > 0.0));
+                let f = v.is_finite();
+                finite += usize::from(f);
+                below += usize::from(f & (ri > 25.0 * sigma) & (excess > 25.0 * sigma));
+                zero += usize::from(f & !(sigma > 0.0));
             }
-        }
+        };
+        count(&res[lo..i - 2]);
+        count(&res[i + 3..=hi]);
         let mid = finite / 2;
         if finite >= 8 && below > mid && zero <= mid {
             out.push(i);

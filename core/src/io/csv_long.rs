@@ -2,25 +2,24 @@
 //!
 //! The delimiter (comma, tab, semicolon, or runs of blanks) is detected from the header line.
 //! Comment lines starting with `#`, blank lines, a UTF-8 byte-order mark and Windows line ends
-//! are accepted. Empty cells are missing values (NaN). The file is read in blocks; each block is
-//! split in two at a line boundary and parsed on two threads, then cut into sweeps in file order
-//! and handed to [`crate::grid`]. Progress is reported in bytes.
+//! are accepted. Empty cells are missing values (NaN). The file is read in blocks of whole lines;
+//! each block is cut at line ends into chunks ([`super::blocks`]) parsed in parallel, each chunk
+//! to its own columns, joined in file order. While one block is parsed, the block before it is
+//! cut into sweeps and the next one is read. The points then go to [`crate::grid`]. Progress is
+//! reported in bytes.
 //!
 //! A line of plain numbers is read in one pass without splitting it into cells
 //! ([`super::decimal`], correctly rounded); any other line (comments, blanks, quotes, empty
 //! cells, errors) goes through the general cell-by-cell rules, so both give the same values.
 
+use super::blocks::fill;
 use super::columns::{recognise, Recognised, Role};
 use super::LoadOptions;
 use crate::error::{Error, Result};
 use crate::grid::{grid_flat, FlatSweeps, SweepSet, SweepSpan};
 use crate::map::{ChannelKind, Map, SweepDirection};
 use crate::progress::Progress;
-use std::io::Read;
 use std::path::{Path, PathBuf};
-
-/// Bytes read per block.
-const BLOCK: usize = 8 << 20;
 
 /// The column delimiter of a file.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -437,10 +436,7 @@ struct SweepCutter {
 impl SweepCutter {
     fn push_piece(&mut self, p: &Piece) {
         let (a, b) = (&p.cols[0], &p.cols[1]);
-        let swept_is_a = *self.swept_is_a.get_or_insert_with(|| {
-            let changes = |v: &[f64]| v.windows(2).filter(|w| w[0] != w[1]).count();
-            changes(a) >= changes(b)
-        });
+        let swept_is_a = self.swept_is_a.unwrap_or(true);
         let (sw, st) = if swept_is_a { (a, b) } else { (b, a) };
         let nch = self.flat.values.len();
         self.points += sw.len();
@@ -511,6 +507,54 @@ impl SweepCutter {
                 _ => SweepDirection::Unknown,
             };
             self.flat.spans.push(s);
+        }
+    }
+}
+
+/// Where parsed pieces go, in file order: the sweep cutter and the temperature column's mean.
+struct PointSink {
+    cutter: SweepCutter,
+    /// Sum and count of finite temperatures.
+    temps: (f64, usize),
+    /// The temperature column's slot in [`Piece::cols`], if the file has one.
+    temperature_slot: Option<usize>,
+    /// File size in bytes, to estimate the number of points from the first block.
+    total_bytes: u64,
+}
+
+impl PointSink {
+    /// Take the pieces of one block (`bytes` long) in order.
+    fn take(&mut self, pieces: &[Piece], bytes: usize) {
+        if pieces.is_empty() {
+            return;
+        }
+        let c = &mut self.cutter;
+        if c.swept_is_a.is_none() {
+            // The coordinate that changes more often over the first block is the swept one.
+            let changes = |col: usize| {
+                let mut v = pieces.iter().flat_map(|p| p.cols[col].iter().copied());
+                let Some(mut last) = v.next() else { return 0 };
+                v.filter(|&x| std::mem::replace(&mut last, x) != x).count()
+            };
+            c.swept_is_a = Some(changes(0) >= changes(1));
+            // Reserve the whole file's worth of points once (estimated from the first block):
+            // untouched capacity costs no memory, repeated doubling would.
+            let rows = pieces.iter().map(Piece::len).sum::<usize>().max(1);
+            let est = (self.total_bytes as f64 / bytes.max(1) as f64 * rows as f64 * 1.02) as usize;
+            c.flat.swept.reserve(est);
+            for v in &mut c.flat.values {
+                v.reserve(est);
+            }
+        }
+        for p in pieces {
+            c.push_piece(p);
+            if let Some(slot) = self.temperature_slot {
+                for &t in &p.cols[slot] {
+                    if t.is_finite() {
+                        self.temps = (self.temps.0 + t, self.temps.1 + 1);
+                    }
+                }
+            }
         }
     }
 }
@@ -603,16 +647,82 @@ impl FilePoints {
 /// Read a long-format delimited text file into its points and sweeps (the parsing half of
 /// [`load`]).
 pub fn read_points(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> Result<FilePoints> {
+    read_points_in(path, opts, progress, Blocking::STANDARD)
+}
+
+/// How a file is read: bytes per block, and how finely a block is cut for parallel parsing.
+#[derive(Debug, Clone, Copy)]
+struct Blocking {
+    /// Bytes read per block.
+    block: usize,
+    /// Chunks per block at most.
+    chunks: usize,
+    /// Smallest chunk worth a task of its own, bytes.
+    min_chunk: usize,
+}
+
+impl Blocking {
+    /// 8 MiB blocks in up to 16 chunks of at least 64 KiB: more chunks than threads, so the
+    /// thread that reads the next block and cuts the last one into sweeps then takes a share.
+    const STANDARD: Blocking = Blocking {
+        block: 8 << 20,
+        chunks: 16,
+        min_chunk: 64 << 10,
+    };
+}
+
+/// Parse the chunks of `block` (cut at `bounds`; `line_base` lines precede it in the file) in
+/// parallel into `pieces`, and number their lines. On a bad line, the error of the first bad
+/// chunk in file order (its own first bad line, as a sequential parse would report).
+fn parse_block(
+    ctx: &ParseCtx,
+    block: &[u8],
+    bounds: &[usize],
+    line_base: usize,
+    pieces: &mut [Piece],
+) -> Result<()> {
+    use rayon::prelude::*;
+    // Each chunk numbers its lines from 0; the bases follow once every chunk has counted its
+    // line ends.
+    let results: Vec<Result<()>> = pieces
+        .par_iter_mut()
+        .zip(bounds.par_windows(2))
+        .map(|(p, w)| ctx.parse_piece(&block[w[0]..w[1]], 0, p))
+        .collect();
+    let mut base = line_base;
+    for (k, r) in results.into_iter().enumerate() {
+        if r.is_err() {
+            // Parse that chunk again knowing where it starts, for the error's line number.
+            let chunk = &block[bounds[k]..bounds[k + 1]];
+            return ctx.parse_piece(chunk, base, &mut pieces[k]);
+        }
+        let p = &mut pieces[k];
+        for m in &mut p.marks {
+            m.1 += base;
+        }
+        base += p.line_ends;
+    }
+    Ok(())
+}
+
+/// [`read_points`] with a given blocking (tests cut files finely to reach every boundary case).
+fn read_points_in(
+    path: &Path,
+    opts: &LoadOptions,
+    progress: &dyn Progress,
+    blocking: Blocking,
+) -> Result<FilePoints> {
     let io = |source| Error::Io {
         path: path.to_path_buf(),
         source,
     };
     let (mut file, total) = super::open_nonempty(path)?;
     progress.start("reading", total);
-    let mut buf: Vec<u8> = Vec::with_capacity(BLOCK + (64 << 10));
+    let capacity = blocking.block + (64 << 10);
+    let mut text: Vec<u8> = Vec::with_capacity(capacity);
     // Read until the first block holds the header line.
-    fill(&mut file, &mut buf, BLOCK).map_err(io)?;
-    let (header, consumed, header_line) = read_header(path, &buf)?;
+    let mut eof = fill(&mut file, &mut text, blocking.block).map_err(io)?;
+    let (header, consumed, header_line) = read_header(path, &text)?;
     let lay = layout(path, &header, opts)?;
     let nch = lay.channels.len();
     let mut slots = vec![SKIP; lay.headers.len()];
@@ -636,90 +746,87 @@ pub fn read_points(path: &Path, opts: &LoadOptions, progress: &dyn Progress) -> 
         scales,
         nslots: 2 + nch + usize::from(lay.temperature.is_some()),
     };
-    let mut cutter = SweepCutter {
-        swept_is_a: None,
-        tol: opts.grid.step_tolerance.unwrap_or(0.0),
-        flat: FlatSweeps {
-            values: vec![Vec::new(); lay.channels.len()],
-            ..FlatSweeps::default()
+    let mut sink = PointSink {
+        cutter: SweepCutter {
+            swept_is_a: None,
+            tol: opts.grid.step_tolerance.unwrap_or(0.0),
+            flat: FlatSweeps {
+                values: vec![Vec::new(); lay.channels.len()],
+                ..FlatSweeps::default()
+            },
+            current: None,
+            dir: 0,
+            points: 0,
         },
-        current: None,
-        dir: 0,
-        points: 0,
+        temps: (0.0, 0),
+        temperature_slot: lay.temperature.map(|_| 2 + nch),
+        total_bytes: total,
     };
-    let mut temps = (0.0f64, 0usize);
     let mut line_base = header_line;
     let mut done_bytes = consumed as u64;
-    buf.drain(..consumed);
-    let mut eof = false;
-    let (mut p1, mut p2) = (Piece::default(), Piece::default());
+    text.drain(..consumed);
+    // Pipeline: while the chunks of one block are parsed, the block before it is cut into
+    // sweeps and the next one is read.
+    let mut next: Vec<u8> = Vec::with_capacity(capacity);
+    let mut parsing: Vec<Piece> = Vec::new();
+    let mut parsed: Vec<Piece> = Vec::new();
+    let mut parsed_bytes = 0usize;
     loop {
-        if !eof {
-            eof = fill(&mut file, &mut buf, BLOCK).map_err(io)?;
-        }
-        // Parse complete lines only; keep the tail for the next block.
-        let cut = if eof {
-            buf.len()
-        } else {
-            match memchr::memrchr(b'\n', &buf) {
-                Some(i) => i + 1,
-                None => {
-                    if buf.len() > 64 << 20 {
-                        return Err(Error::UnsupportedFormat {
-                            path: path.to_path_buf(),
-                            message: format!("line {} is longer than 64 MiB", line_base + 1),
-                        });
-                    }
-                    continue;
-                }
+        // Parse complete lines only; the tail starts the next block.
+        let cut = loop {
+            if eof {
+                break text.len();
             }
+            if let Some(i) = memchr::memrchr(b'\n', &text) {
+                break i + 1;
+            }
+            if text.len() > 64 << 20 {
+                return Err(Error::UnsupportedFormat {
+                    path: path.to_path_buf(),
+                    message: format!("line {} is longer than 64 MiB", line_base + 1),
+                });
+            }
+            eof = fill(&mut file, &mut text, blocking.block).map_err(io)?;
         };
-        let block = &buf[..cut];
-        if !block.is_empty() {
-            let mid = if block.len() > 1 << 16 {
-                memchr::memchr(b'\n', &block[block.len() / 2..])
-                    .map_or(block.len(), |i| block.len() / 2 + i + 1)
-            } else {
-                block.len()
-            };
-            let (first, second) = block.split_at(mid);
-            let first_ends = memchr::memchr_iter(b'\n', first).count();
-            let (r1, r2) = rayon::join(
-                || ctx.parse_piece(first, line_base, &mut p1),
-                || ctx.parse_piece(second, line_base + first_ends, &mut p2),
-            );
-            r1?;
-            r2?;
-            if cutter.points == 0 {
-                // Reserve the whole file's worth of points once (estimated from the first
-                // block): untouched capacity costs no memory, repeated doubling would.
-                let rows = (p1.len() + p2.len()).max(1);
-                let est = (total as f64 / cut.max(1) as f64 * rows as f64 * 1.02) as usize;
-                cutter.flat.swept.reserve(est);
-                for v in &mut cutter.flat.values {
-                    v.reserve(est);
-                }
-            }
-            for p in [&p1, &p2] {
-                cutter.push_piece(p);
-                if lay.temperature.is_some() {
-                    for &t in &p.cols[2 + nch] {
-                        if t.is_finite() {
-                            temps = (temps.0 + t, temps.1 + 1);
-                        }
-                    }
-                }
-            }
-            line_base += p1.line_ends + p2.line_ends;
+        let (block, tail) = text.split_at(cut);
+        let nchunks = (block.len() / blocking.min_chunk.max(1)).clamp(1, blocking.chunks);
+        let bounds = super::blocks::chunk_bounds(block, nchunks);
+        let n = bounds.len() - 1;
+        if parsing.len() < n {
+            parsing.resize_with(n, Piece::default);
         }
+        let last_block = eof;
+        let (parse, read) = rayon::join(
+            || parse_block(&ctx, block, &bounds, line_base, &mut parsing[..n]),
+            || {
+                sink.take(&parsed, parsed_bytes);
+                next.clear();
+                next.extend_from_slice(tail);
+                if last_block {
+                    Ok(true)
+                } else {
+                    fill(&mut file, &mut next, blocking.block)
+                }
+            },
+        );
+        parse?;
+        eof = read.map_err(io)?;
+        parsing.truncate(n);
+        line_base += parsing.iter().map(|p| p.line_ends).sum::<usize>();
         done_bytes += cut as u64;
         progress.set(done_bytes);
-        buf.drain(..cut);
-        if eof && buf.is_empty() {
+        parsed_bytes = cut;
+        std::mem::swap(&mut parsing, &mut parsed);
+        std::mem::swap(&mut text, &mut next);
+        if last_block {
             break;
         }
     }
+    sink.take(&parsed, parsed_bytes);
     progress.finish();
+    let PointSink {
+        mut cutter, temps, ..
+    } = sink;
     cutter.close();
     if cutter.points == 0 {
         return Err(Error::HeaderOnly {
@@ -797,29 +904,6 @@ fn with_path(e: Error, path: &Path) -> Error {
         },
         other => other,
     }
-}
-
-/// Append up to `want` bytes to `buf`; true at end of file.
-fn fill(file: &mut std::fs::File, buf: &mut Vec<u8>, want: usize) -> std::io::Result<bool> {
-    let start = buf.len();
-    buf.resize(start + want, 0);
-    let mut got = 0;
-    while got < want {
-        match file.read(&mut buf[start + got..]) {
-            Ok(0) => {
-                buf.truncate(start + got);
-                return Ok(true);
-            }
-            Ok(n) => got += n,
-            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => {}
-            Err(e) => {
-                buf.truncate(start + got);
-                return Err(e);
-            }
-        }
-    }
-    buf.truncate(start + got);
-    Ok(false)
 }
 
 #[cfg(test)]
@@ -1069,5 +1153,229 @@ mod tests {
         let e = load_text(&bad).unwrap_err().to_string();
         // The first "1999" is in the rxx column of line (1 + 1999 + 1) = 2001.
         assert!(e.contains(":2001:"), "{e}");
+    }
+
+    /// One block, one chunk: the sequential parse the blocked one must equal.
+    const WHOLE: Blocking = Blocking {
+        block: 1 << 30,
+        chunks: 1,
+        min_chunk: 1,
+    };
+
+    /// A file of `text` to parse with several blockings.
+    struct TestFile {
+        _dir: tempfile::TempDir,
+        path: PathBuf,
+    }
+
+    impl TestFile {
+        fn new(text: &str) -> TestFile {
+            let dir = tempfile::tempdir().unwrap();
+            let path = write(&dir, "m.csv", text);
+            TestFile { _dir: dir, path }
+        }
+
+        fn points(&self, blocking: Blocking) -> Result<FilePoints> {
+            read_points_in(&self.path, &LoadOptions::default(), &NoProgress, blocking)
+        }
+    }
+
+    fn points_in(text: &str, blocking: Blocking) -> Result<FilePoints> {
+        TestFile::new(text).points(blocking)
+    }
+
+    /// Everything a parse gives, as text for comparing two parses: values as bit patterns
+    /// (missing values are NaN, which never equals itself).
+    fn summary(p: &FilePoints) -> String {
+        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<u64>>();
+        let mut values = vec![bits(&p.flat.swept)];
+        values.extend(p.flat.values.iter().map(|v| bits(v)));
+        format!(
+            "{values:?} {:?} {} {:?} {:?}",
+            p.flat.spans,
+            p.swept_on_x,
+            p.columns,
+            p.temperature_k.map(f64::to_bits)
+        )
+    }
+
+    /// A deterministic xorshift generator for test files.
+    struct Rng(u64);
+
+    impl Rng {
+        fn below(&mut self, n: u64) -> u64 {
+            self.0 ^= self.0 << 13;
+            self.0 ^= self.0 >> 7;
+            self.0 ^= self.0 << 17;
+            self.0 % n
+        }
+    }
+
+    /// A gate-fastest file with the awkward cases mixed in: comments, blank lines, CRLF line
+    /// ends, quoted and empty cells, a reversed sweep, a temperature column, and (sometimes) no
+    /// line end at the end. Returns the text and the 1-based line number of every data row.
+    fn awkward_file(rng: &mut Rng) -> (String, Vec<usize>) {
+        let mut t = String::from("# cooldown 2\nvg_V,b_T,T_K,rxx_ohm,rxy_ohm\n");
+        for j in 0..12 {
+            let reversed = j == 5;
+            for i in 0..9 {
+                let i = if reversed { 8 - i } else { i };
+                match rng.below(12) {
+                    0 => t.push_str("# note\n"),
+                    1 => t.push_str("\r\n"),
+                    _ => {}
+                }
+                let eol = if rng.below(3) == 0 { "\r\n" } else { "\n" };
+                let rxx = match rng.below(10) {
+                    0 => String::new(),
+                    1 => format!("\"{}.5\"", 100 + i + j),
+                    _ => format!("{}.25e-1", 1000 + 37 * i + j),
+                };
+                t.push_str(&format!(
+                    "{},{}, 1.{}5,{rxx},-{}.125{eol}",
+                    i as f64 * 0.5 - 2.0,
+                    j as f64 * 0.125,
+                    rng.below(10),
+                    i * j
+                ));
+            }
+        }
+        // Line numbers: the data rows are the lines after the header that are neither blank
+        // nor comments.
+        let numbers: Vec<usize> = t
+            .split('\n')
+            .enumerate()
+            .filter(|(k, l)| {
+                let l = l.trim_end_matches('\r');
+                *k >= 2 && !l.is_empty() && !l.starts_with('#')
+            })
+            .map(|(k, _)| k + 1)
+            .collect();
+        assert_eq!(numbers.len(), 108);
+        if rng.below(2) == 0 {
+            t.pop();
+            if t.ends_with('\r') {
+                t.pop();
+            }
+        }
+        (t, numbers)
+    }
+
+    fn random_blocking(rng: &mut Rng) -> Blocking {
+        Blocking {
+            block: 64 + rng.below(400) as usize,
+            chunks: 1 + rng.below(9) as usize,
+            min_chunk: 1 + rng.below(80) as usize,
+        }
+    }
+
+    #[test]
+    fn any_blocking_parses_like_one_sequential_pass() {
+        let mut rng = Rng(0x9e37_79b9_7f4a_7c15);
+        for _ in 0..40 {
+            let (text, _) = awkward_file(&mut rng);
+            let file = TestFile::new(&text);
+            let whole = file.points(WHOLE).unwrap();
+            assert_eq!(whole.len(), 108);
+            assert_eq!(whole.flat.spans.len(), 12);
+            assert!(whole.temperature_k.is_some());
+            for _ in 0..6 {
+                let b = random_blocking(&mut rng);
+                let got = file.points(b).unwrap();
+                assert_eq!(summary(&got), summary(&whole), "{b:?}\n{text}");
+            }
+        }
+    }
+
+    #[test]
+    fn a_bad_cell_anywhere_names_its_own_line_for_any_blocking() {
+        let mut rng = Rng(0x2545_f491_4f6c_dd1d);
+        for _ in 0..40 {
+            let (text, numbers) = awkward_file(&mut rng);
+            // Spoil the rxy cell of one data row.
+            let k = rng.below(numbers.len() as u64) as usize;
+            let line = numbers[k];
+            let spoilt: Vec<String> = text
+                .split('\n')
+                .enumerate()
+                .map(|(i, l)| {
+                    if i + 1 == line {
+                        let at = l.rfind(".125").unwrap();
+                        format!("{}.1x5{}", &l[..at], &l[at + 4..])
+                    } else {
+                        l.to_string()
+                    }
+                })
+                .collect();
+            let file = TestFile::new(&spoilt.join("\n"));
+            let want = file.points(WHOLE).err().unwrap().to_string();
+            assert!(
+                want.contains(&format!("m.csv:{line}:")) && want.contains("rxy_ohm"),
+                "{want}"
+            );
+            for _ in 0..4 {
+                let b = random_blocking(&mut rng);
+                let e = file.points(b).err().unwrap().to_string();
+                assert_eq!(e, want, "{b:?}");
+            }
+        }
+    }
+
+    #[test]
+    fn an_error_in_the_middle_of_the_second_chunk_is_numbered_from_the_file_start() {
+        let mut t = String::from("vg_V,b_T,rxx_ohm\n");
+        for j in 0..4 {
+            for i in 0..100 {
+                t.push_str(&format!("{i},{j},{}\n", i * j));
+            }
+        }
+        // Line 1 is the header; data row r (0-based) is on line r + 2. Row 150 is in the
+        // middle of the second of four chunks.
+        let t = t.replacen("50,1,50\n", "50,1,5;0\n", 1);
+        let four = Blocking {
+            block: 1 << 20,
+            chunks: 4,
+            min_chunk: 1,
+        };
+        let e = points_in(&t, four).err().unwrap().to_string();
+        assert!(
+            e.contains("m.csv:152:") && e.contains("mixed delimiters"),
+            "{e}"
+        );
+        let t = t.replacen("5;0", "5x0", 1);
+        let e = points_in(&t, four).err().unwrap().to_string();
+        assert!(e.contains("m.csv:152:") && e.contains("`5x0`"), "{e}");
+    }
+
+    #[test]
+    fn a_duplicate_point_is_reported_on_its_line_across_blocks() {
+        let mut t = String::from("vg_V,b_T,rxx_ohm\n# a comment\n\n");
+        for i in 0..60 {
+            t.push_str(&format!("{i},1,{i}\r\n"));
+        }
+        t.push_str("59,1,7");
+        let dir = tempfile::tempdir().unwrap();
+        let p = write(&dir, "d.csv", &t);
+        let opts = LoadOptions {
+            duplicates: DuplicatePolicy::Error,
+            ..LoadOptions::default()
+        };
+        let mut rng = Rng(77);
+        for _ in 0..10 {
+            let b = random_blocking(&mut rng);
+            let pts = read_points_in(&p, &opts, &NoProgress, b).unwrap();
+            let e = grid_flat(
+                pts.set,
+                pts.flat,
+                pts.swept_on_x,
+                &opts.grid,
+                opts.duplicates,
+            )
+            .map_err(|e| with_path(e, &p))
+            .unwrap_err()
+            .to_string();
+            // Header on line 1, two skipped lines, 60 rows on lines 4–63, the repeat on 64.
+            assert!(e.contains("line 64"), "{b:?}: {e}");
+        }
     }
 }

@@ -5,6 +5,7 @@
 //! Every loader streams, reports progress through [`Progress`] and returns typed errors that
 //! name the file and, where there is one, the line and column.
 
+pub(crate) mod blocks;
 pub mod columns;
 pub mod csv_long;
 pub mod decimal;
