@@ -318,6 +318,20 @@ pub fn strip_rgba(colors: &[[u8; 3]], width: u32, height: u32) -> Vec<u8> {
     out
 }
 
+/// The rows `y0..y1` of `pm` (premultiplied RGBA, 4 bytes a pixel), in parallel, each with its
+/// row index; the caller has clipped `y0..y1` to the pixmap.
+pub fn par_rows(
+    pm: &mut Pixmap,
+    y0: usize,
+    y1: usize,
+) -> impl IndexedParallelIterator<Item = (usize, &mut [u8])> {
+    let stride = pm.width() as usize * 4;
+    pm.data_mut()[y0 * stride..y1 * stride]
+        .par_chunks_mut(stride)
+        .enumerate()
+        .map(move |(i, row)| (y0 + i, row))
+}
+
 /// Copy straight-alpha RGBA whose alpha is 0 or 255 into the pixmap at (x0, y0): the opaque
 /// pixels, rows in parallel (a wholly opaque row in one copy).
 fn blit_opaque(pm: &mut Pixmap, img: &[u8], x0: i64, y0: i64, w: u32, h: u32) {
@@ -327,28 +341,22 @@ fn blit_opaque(pm: &mut Pixmap, img: &[u8], x0: i64, y0: i64, w: u32, h: u32) {
     if cx0 >= cx1 || cy0 >= cy1 {
         return;
     }
-    let stride = pw as usize * 4;
     let row_bytes = w as usize * 4;
-    pm.data_mut()
-        .par_chunks_mut(stride)
-        .enumerate()
-        .skip(cy0 as usize)
-        .take((cy1 - cy0) as usize)
-        .for_each(|(y, out)| {
-            let r = (y as i64 - y0) as usize;
-            let src = &img[r * row_bytes..(r + 1) * row_bytes];
-            let src = &src[(cx0 - x0) as usize * 4..(cx1 - x0) as usize * 4];
-            let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
-            if src.chunks_exact(4).all(|p| p[3] == 255) {
-                out.copy_from_slice(src);
-                return;
+    par_rows(pm, cy0 as usize, cy1 as usize).for_each(|(y, out)| {
+        let r = (y as i64 - y0) as usize;
+        let src = &img[r * row_bytes..(r + 1) * row_bytes];
+        let src = &src[(cx0 - x0) as usize * 4..(cx1 - x0) as usize * 4];
+        let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
+        if src.chunks_exact(4).all(|p| p[3] == 255) {
+            out.copy_from_slice(src);
+            return;
+        }
+        for (d, s) in out.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
+            if s[3] != 0 {
+                d.copy_from_slice(s);
             }
-            for (d, s) in out.chunks_exact_mut(4).zip(src.chunks_exact(4)) {
-                if s[3] != 0 {
-                    d.copy_from_slice(s);
-                }
-            }
-        });
+        }
+    });
 }
 
 /// Fill and/or stroke a polyline given in pt; `at` is (px per pt, device pixel at the pixmap's

@@ -8,6 +8,7 @@
 use super::draw::Reuse;
 use super::layers::PixelRect;
 use super::state::Viewport;
+use crate::figure::raster::par_rows;
 use rayon::prelude::*;
 use std::time::{Duration, Instant};
 use tiny_skia::Pixmap;
@@ -72,27 +73,22 @@ pub fn scale_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, m: &PixelMap, 
         .collect();
     let stride = w as usize * 4;
     let sd = src.data();
-    dst.data_mut()
-        .par_chunks_mut(stride)
-        .enumerate()
-        .skip(y0 as usize)
-        .take((y1 - y0) as usize)
-        .for_each(|(y, row)| {
-            let out = &mut row[x0 as usize * 4..x1 as usize * 4];
-            let Some(sy) = inside(PixelMap::source(m.y, y as i64), y0, y1) else {
-                for px in out.chunks_exact_mut(4) {
-                    px.copy_from_slice(&fill);
-                }
-                return;
-            };
-            let srow = &sd[sy * stride..(sy + 1) * stride];
-            for (px, col) in out.chunks_exact_mut(4).zip(&cols) {
-                match *col {
-                    Some(sx) => px.copy_from_slice(&srow[sx * 4..sx * 4 + 4]),
-                    None => px.copy_from_slice(&fill),
-                }
+    par_rows(dst, y0 as usize, y1 as usize).for_each(|(y, row)| {
+        let out = &mut row[x0 as usize * 4..x1 as usize * 4];
+        let Some(sy) = inside(PixelMap::source(m.y, y as i64), y0, y1) else {
+            for px in out.chunks_exact_mut(4) {
+                px.copy_from_slice(&fill);
             }
-        });
+            return;
+        };
+        let srow = &sd[sy * stride..(sy + 1) * stride];
+        for (px, col) in out.chunks_exact_mut(4).zip(&cols) {
+            match *col {
+                Some(sx) => px.copy_from_slice(&srow[sx * 4..sx * 4 + 4]),
+                None => px.copy_from_slice(&fill),
+            }
+        }
+    });
 }
 
 /// Fill the pixel rectangle `r` of `dst` with the same rectangle of `src` (a picture of the same
@@ -116,24 +112,19 @@ pub fn shift_region(dst: &mut Pixmap, src: &Pixmap, r: PixelRect, d: (i64, i64),
             p.copy_from_slice(&fill);
         }
     };
-    dst.data_mut()
-        .par_chunks_mut(stride)
-        .enumerate()
-        .skip(y0 as usize)
-        .take((y1 - y0) as usize)
-        .for_each(|(y, row)| {
-            let out = &mut row[x0 as usize * 4..x1 as usize * 4];
-            let sy = y as i64 - d.1;
-            if sy < y0 || sy >= y1 || k0 >= k1 {
-                fill_px(out);
-                return;
-            }
-            let (a, b) = ((k0 - x0) as usize * 4, (k1 - x0) as usize * 4);
-            let s0 = sy as usize * stride + (k0 - d.0) as usize * 4;
-            out[a..b].copy_from_slice(&sd[s0..s0 + (b - a)]);
-            fill_px(&mut out[..a]);
-            fill_px(&mut out[b..]);
-        });
+    par_rows(dst, y0 as usize, y1 as usize).for_each(|(y, row)| {
+        let out = &mut row[x0 as usize * 4..x1 as usize * 4];
+        let sy = y as i64 - d.1;
+        if sy < y0 || sy >= y1 || k0 >= k1 {
+            fill_px(out);
+            return;
+        }
+        let (a, b) = ((k0 - x0) as usize * 4, (k1 - x0) as usize * 4);
+        let s0 = sy as usize * stride + (k0 - d.0) as usize * 4;
+        out[a..b].copy_from_slice(&sd[s0..s0 + (b - a)]);
+        fill_px(&mut out[..a]);
+        fill_px(&mut out[b..]);
+    });
 }
 
 /// What keeps the window in interim frames.

@@ -6,7 +6,7 @@
 
 use crate::figure::draw::Item;
 use crate::figure::hairline::draw_hairline;
-use crate::figure::raster::{draw_analytic_stroke, draw_item};
+use crate::figure::raster::{draw_analytic_stroke, draw_item, par_rows};
 use rayon::prelude::*;
 use tiny_skia::Pixmap;
 
@@ -95,22 +95,16 @@ impl OverlayLayer {
         if cx0 >= cx1 || cy0 >= cy1 {
             return;
         }
-        let stride = dw as usize * 4;
-        dst.data_mut()
-            .par_chunks_mut(stride)
-            .enumerate()
-            .skip(cy0 as usize)
-            .take((cy1 - cy0) as usize)
-            .for_each(|(y, out)| {
-                let Some(src) = self.row(y as i64 - shift.1) else {
-                    return;
-                };
-                let sx0 = (cx0 - shift.0 - lx0) as usize;
-                let n = (cx1 - cx0) as usize;
-                let src = &src[sx0 * 4..(sx0 + n) * 4];
-                let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
-                over(out, src);
-            });
+        par_rows(dst, cy0 as usize, cy1 as usize).for_each(|(y, out)| {
+            let Some(src) = self.row(y as i64 - shift.1) else {
+                return;
+            };
+            let sx0 = (cx0 - shift.0 - lx0) as usize;
+            let n = (cx1 - cx0) as usize;
+            let src = &src[sx0 * 4..(sx0 + n) * 4];
+            let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
+            over(out, src);
+        });
     }
 }
 
