@@ -198,7 +198,10 @@ fn resolvable(
 /// the values there.
 fn at_sampled_minimum(model: &Model, cfg: &SynthConfig, j: usize, b: f64) -> bool {
     let (g_lo, g_hi) = cfg.gate_range_v;
-    let cols = cfg.gate_points.max(3);
+    let cols = cfg.gate_points;
+    if cols < 3 {
+        return false;
+    }
     let dv = (g_hi - g_lo) / (cols - 1) as f64;
     let column = (model.device.gate_for_density(model.line_density(j, b)) - g_lo) / dv;
     if !column.is_finite() {
