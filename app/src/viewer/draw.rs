@@ -552,10 +552,13 @@ struct OverlayContent {
     pixels: PixelRect,
 }
 
-/// The kept overlay's layer and what it was drawn for.
+/// The kept overlay's layer and what it was drawn for: drawn straight over the base it is
+/// shown on (an opaque layer), so it is only shown on that base.
 struct Overlay {
     content: OverlayContent,
     view: Viewport,
+    /// The base it was drawn over (the renderer's count of bases made when it was drawn).
+    base: usize,
     layer: OverlayLayer,
 }
 
@@ -660,6 +663,14 @@ pub struct Renderer {
     /// The last settled plot (base with the overlay laid over it) that scaled interim frames
     /// resample, with the (bases, overlays) counts it was made at.
     settled_plot: Option<((usize, usize), Pixmap)>,
+}
+
+impl Overlay {
+    /// Whether the layer may be shown on the base counted `base`: a transparent layer on any,
+    /// an opaque one only on the base it was drawn over.
+    fn shows_on(&self, base: usize) -> bool {
+        !self.layer.is_opaque() || self.base == base
+    }
 }
 
 /// Everything the kept overlay of `s` in the plot `g` depends on apart from the viewport.
@@ -772,6 +783,7 @@ impl Renderer {
                 Motion::Scale(_)
                     if !matches!(&self.overlay, Some(o)
                         if o.view == b.key.heat.view
+                            && o.shows_on(self.bases_made)
                             && o.content == overlay_content(s, g)) =>
                 {
                     None
@@ -812,7 +824,7 @@ impl Renderer {
             let content = overlay_content(s, g);
             let scaled = matches!(motion, Some(Motion::Scale(_)));
             let shift = self.overlay.as_ref().and_then(|o| {
-                if o.content != content {
+                if o.content != content || !o.shows_on(self.bases_made) {
                     return None;
                 }
                 if o.view == s.view {
@@ -829,12 +841,19 @@ impl Renderer {
                 None => {
                     let items = kept_items(s, g);
                     let bands = overlay_bands(g.pixels);
-                    let layer = OverlayLayer::draw(&items, g.scale, g.pixels, bands)
-                        .ok_or_else(no_frame)?;
+                    // Over the base itself, unless the frame shows the base moved (an interim
+                    // frame): then transparent, to be laid over the moved picture.
+                    let layer = if motion.is_some() {
+                        OverlayLayer::draw(&items, g.scale, g.pixels, bands)
+                    } else {
+                        OverlayLayer::draw_over(&items, g.scale, g.pixels, bands, &base.pixmap)
+                    }
+                    .ok_or_else(no_frame)?;
                     self.overlays_made += 1;
                     self.overlay = Some(Overlay {
                         content,
                         view: s.view,
+                        base: self.bases_made,
                         layer,
                     });
                     (0, 0)

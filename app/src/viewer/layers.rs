@@ -14,12 +14,16 @@ use tiny_skia::Pixmap;
 pub type PixelRect = (i64, i64, i64, i64);
 
 /// An overlay drawn over the plot: premultiplied RGBA covering exactly the plot's pixel
-/// rectangle, stored as horizontal bands (one per worker) stacked top to bottom.
+/// rectangle, stored as horizontal bands (one per worker) stacked top to bottom. Either
+/// transparent where nothing is drawn (laid over a picture by source-over), or opaque: drawn
+/// straight over a copy of the picture it will be shown on, so that showing it is a copy.
 pub struct OverlayLayer {
     /// The window pixels the layer covers.
     pub rect: PixelRect,
     /// (first window row, pixels) of each band, top to bottom, together covering `rect`.
     bands: Vec<(i64, Pixmap)>,
+    /// Whether the bands hold the picture under the items too (see [`Self::draw_over`]).
+    opaque: bool,
 }
 
 impl OverlayLayer {
@@ -27,6 +31,34 @@ impl OverlayLayer {
     /// `bands` horizontal bands drawn in parallel. The layer's edges clip the items exactly as a
     /// clip mask on `rect` would. `None` for an empty rectangle.
     pub fn draw(items: &[Item], scale: f64, rect: PixelRect, bands: usize) -> Option<OverlayLayer> {
+        Self::draw_on(items, scale, rect, bands, None)
+    }
+
+    /// [`Self::draw`] with each band starting as the pixels of `under` (a window-sized opaque
+    /// picture) in `rect` instead of transparent: the items drawn straight over that picture,
+    /// as one pass onto it would draw them, and [`Self::composite`] then copies the pixels.
+    /// Transparent when `rect` does not lie inside `under`.
+    pub fn draw_over(
+        items: &[Item],
+        scale: f64,
+        rect: PixelRect,
+        bands: usize,
+        under: &Pixmap,
+    ) -> Option<OverlayLayer> {
+        let inside = rect.0 >= 0
+            && rect.1 >= 0
+            && rect.2 <= under.width() as i64
+            && rect.3 <= under.height() as i64;
+        Self::draw_on(items, scale, rect, bands, inside.then_some(under))
+    }
+
+    fn draw_on(
+        items: &[Item],
+        scale: f64,
+        rect: PixelRect,
+        bands: usize,
+        under: Option<&Pixmap>,
+    ) -> Option<OverlayLayer> {
         let (x0, y0, x1, y1) = rect;
         let (w, h) = (x1 - x0, y1 - y0);
         if w <= 0 || h <= 0 {
@@ -34,10 +66,31 @@ impl OverlayLayer {
         }
         let n = (bands.max(1) as i64).min(h);
         let edges: Vec<i64> = (0..=n).map(|k| y0 + h * k / n).collect();
+        // The band of window rows [top, bottom): transparent, or the rows of `under`.
+        let start = |top: i64, bottom: i64| -> Option<Pixmap> {
+            let Some(pic) = under else {
+                return Pixmap::new(w as u32, (bottom - top) as u32);
+            };
+            let stride = pic.width() as usize * 4;
+            let (c0, c1) = (x0 as usize * 4, x1 as usize * 4);
+            let mut data = Vec::with_capacity((c1 - c0) * (bottom - top) as usize);
+            for row in pic
+                .data()
+                .chunks_exact(stride)
+                .take(bottom as usize)
+                .skip(top as usize)
+            {
+                data.extend_from_slice(&row[c0..c1]);
+            }
+            Pixmap::from_vec(
+                data,
+                tiny_skia::IntSize::from_wh(w as u32, (bottom - top) as u32)?,
+            )
+        };
         let bands: Option<Vec<(i64, Pixmap)>> = edges
             .par_windows(2)
             .map(|e| {
-                let mut pm = Pixmap::new(w as u32, (e[1] - e[0]) as u32)?;
+                let mut pm = start(e[0], e[1])?;
                 let origin = (x0 as f64, e[0] as f64);
                 let mut masks = Vec::new();
                 let all = (0, 0, i64::MAX, i64::MAX);
@@ -50,7 +103,13 @@ impl OverlayLayer {
         Some(OverlayLayer {
             rect,
             bands: bands?,
+            opaque: under.is_some(),
         })
+    }
+
+    /// Whether the layer holds the picture under its items (drawn by [`Self::draw_over`]).
+    pub fn is_opaque(&self) -> bool {
+        self.opaque
     }
 
     /// The layer's premultiplied pixel at window pixel (x, y), transparent outside.
@@ -83,7 +142,8 @@ impl OverlayLayer {
 
     /// Lay the layer over `dst` (premultiplied RGBA, a window-sized pixmap), moved by `shift`
     /// window pixels, keeping only the pixels that land inside `clip`: source-over,
-    /// out = src + dst · (255 − src alpha) / 255 per channel, rows in parallel.
+    /// out = src + dst · (255 − src alpha) / 255 per channel, rows in parallel (an opaque
+    /// layer's pixels are copied).
     pub fn composite(&self, dst: &mut Pixmap, shift: (i64, i64), clip: PixelRect) {
         let (dw, dh) = (dst.width() as i64, dst.height() as i64);
         let (lx0, ly0, lx1, ly1) = self.rect;
@@ -103,7 +163,11 @@ impl OverlayLayer {
             let n = (cx1 - cx0) as usize;
             let src = &src[sx0 * 4..(sx0 + n) * 4];
             let out = &mut out[cx0 as usize * 4..cx1 as usize * 4];
-            over(out, src);
+            if self.opaque {
+                out.copy_from_slice(src);
+            } else {
+                over(out, src);
+            }
         });
     }
 }
@@ -279,6 +343,40 @@ mod tests {
                 assert_eq!(px(&still, x, y), px(&moved, x + 3, y - 2));
             }
         }
+        // Drawn over the picture itself: the same as the transparent layer laid over it.
+        let mut picture = Pixmap::new(80, 100).unwrap();
+        for (k, px) in picture.data_mut().chunks_exact_mut(4).enumerate() {
+            px.copy_from_slice(&[(k % 251) as u8, (k / 7 % 253) as u8, 90, 255]);
+        }
+        let opaque = OverlayLayer::draw_over(&items, 1.5, rect, 3, &picture).unwrap();
+        let mut laid = picture.clone();
+        one.composite(&mut laid, (0, 0), (0, 0, 80, 100));
+        let mut copied = base.clone();
+        opaque.composite(&mut copied, (0, 0), (0, 0, 80, 100));
+        for y in 0..100 {
+            for x in 0..80 {
+                let want = if (10..60).contains(&x) && (20..90).contains(&y) {
+                    px(&laid, x, y)
+                } else {
+                    px(&base, x, y)
+                };
+                let got = px(&copied, x, y);
+                let d = [
+                    got.red().abs_diff(want.red()),
+                    got.green().abs_diff(want.green()),
+                    got.blue().abs_diff(want.blue()),
+                    got.alpha().abs_diff(want.alpha()),
+                ];
+                assert!(d.iter().all(|&d| d <= 1), "({x}, {y}): {got:?} vs {want:?}");
+            }
+        }
+        // A layer reaching past the picture is drawn transparent.
+        assert!(opaque.is_opaque());
+        assert!(
+            !OverlayLayer::draw_over(&items, 1.5, (10, 20, 90, 90), 2, &picture)
+                .unwrap()
+                .is_opaque()
+        );
         // A clip keeps the layer inside it.
         let mut clipped = base.clone();
         one.composite(&mut clipped, (0, 0), (0, 0, 30, 100));
