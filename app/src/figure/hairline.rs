@@ -162,21 +162,26 @@ pub fn draw_hairline(
             // The first inner slab in arc order, its arc length at entry and its v.
             let p_first = if forward { inner0 } else { inner1 - 1 };
             let entry = if forward { p_first } else { p_first + 1 };
-            let mut s_at = arc + (entry as f64 - u0).abs() * arc_per_u;
+            let s_at = arc + (entry as f64 - u0).abs() * arc_per_u;
             let (dp, dvs) = if forward { (1, slope) } else { (-1, -slope) };
-            let mut v = v0 + slope * (p_first as f64 + 0.5 - u0) - 0.5;
-            let mut p = p_first;
-            for _ in 0..n {
-                let a = match pattern.as_mut() {
-                    None => cov,
-                    Some(d) => cov * on_share(d.on_step(s_at, arc_per_u), arc_per_u),
-                };
-                if a > 0.0 {
-                    canvas.put(steep, p, a, v);
+            let v = v0 + slope * (p_first as f64 + 0.5 - u0) - 0.5;
+            let run = Run {
+                steep,
+                p: p_first,
+                dp,
+                n,
+                v,
+                dv: dvs,
+            };
+            match pattern.as_mut() {
+                None => {
+                    let total = alpha_of(cov);
+                    canvas.run(&run, |_| total);
                 }
-                p += dp;
-                v += dvs;
-                s_at += arc_per_u;
+                Some(d) => canvas.run(&run, |k| {
+                    let s_at = s_at + k as f64 * arc_per_u;
+                    alpha_of(cov * on_share(d.on_step(s_at, arc_per_u), arc_per_u))
+                }),
             }
         }
         for k in 0..(tail.end - tail.start).max(0) {
@@ -212,6 +217,40 @@ impl Canvas<'_> {
         }
     }
 
+    /// The steps of `run`, the k-th with coverage `alpha(k)` (0…255): the minor-axis position
+    /// stepped in fixed point with 24 fractional bits (over 4096 steps it drifts less than
+    /// 10⁻³ px), split between the two pixels in 1/256 steps as [`Self::put`] splits it.
+    #[inline(always)]
+    fn run(&mut self, r: &Run, mut alpha: impl FnMut(i64) -> u32) {
+        const ONE: f64 = (1u64 << 24) as f64;
+        let (x0, y0, x1, y1) = self.clip;
+        // The minor axis' clip; the major-axis pixels of a run lie inside the clip.
+        let (lo, hi) = if r.steep { (x0, x1) } else { (y0, y1) };
+        let mut v = (r.v * ONE).round() as i64;
+        let dv = (r.dv * ONE).round() as i64;
+        let mut p = r.p;
+        for k in 0..r.n {
+            let total = alpha(k);
+            let q = v >> 24;
+            let second = (total * ((v >> 16) & 0xFF) as u32 + 128) >> 8;
+            for (q, a) in [(q, total - second), (q + 1, second)] {
+                if a == 0 || q < lo || q >= hi {
+                    continue;
+                }
+                let (x, y) = if r.steep { (q, p) } else { (p, q) };
+                if y < y0 || y >= y1 || x < x0 || x >= x1 {
+                    continue;
+                }
+                let i = ((y * self.width + x) * 4) as usize;
+                if let Some(px) = self.data.get_mut(i..i + 4) {
+                    self.src.blend_onto(px, a);
+                }
+            }
+            p += r.dp;
+            v += dv;
+        }
+    }
+
     /// One step of a line at major-axis pixel `p` with coverage `a` (0…1) whose middle lies at
     /// `v` on the minor axis (x when `steep`): shared between the two pixels it passes between.
     /// The coverage is rounded to 0…255 once and split in 1/256 steps of the fraction, so the
@@ -220,7 +259,7 @@ impl Canvas<'_> {
     fn put(&mut self, steep: bool, p: i64, a: f64, v: f64) {
         let vf = floor(v);
         let q = vf as i64;
-        let total = (a.min(1.0) * 255.0 + 0.5) as u32;
+        let total = alpha_of(a);
         let second = (total * ((v - vf) * 256.0) as u32 + 128) >> 8;
         if steep {
             self.plot(q, p, total - second);
@@ -230,6 +269,24 @@ impl Canvas<'_> {
             self.plot(p, q + 1, second);
         }
     }
+}
+
+/// The steps of a line wholly inside one segment, in the order of the arc: the first major-axis
+/// pixel `p`, `dp` (±1) a step, `n` steps, the minor-axis position `v` of the first step's
+/// middle (less ½) and its change `dv` a step; `steep` when the major axis is y.
+struct Run {
+    steep: bool,
+    p: i64,
+    dp: i64,
+    n: i64,
+    v: f64,
+    dv: f64,
+}
+
+/// Coverage 0…1 as an alpha 0…255, rounded.
+#[inline(always)]
+fn alpha_of(a: f64) -> u32 {
+    (a.clamp(0.0, 1.0) * 255.0 + 0.5) as u32
 }
 
 /// The share `on / step` of a step that a dash covers, snapped to exactly 1 or 0 within 10⁻⁹:
