@@ -200,7 +200,7 @@ fn png_matches_the_committed_reference() {
 #[test]
 fn bands_draw_the_picture_one_pass_draws() {
     // Vector items drawn in parallel bands of 256 rows (and of 37, to cross many edges) give the
-    // very bytes of one band over the whole page.
+    // very bytes of one band over the whole page, and so do short runs drawn in one pass.
     let fig = demo_scene(178.0, 75.0, 2);
     let list = layout(&fig).unwrap();
     let mut layer = |p: &Panel, m: &super::heatmap::ColorMapping, w, h| {
@@ -214,14 +214,14 @@ fn bands_draw_the_picture_one_pass_draws() {
             h,
         ))
     };
-    let one = raster::draw_list_banded(&fig, &list, &mut layer, usize::MAX / 8).unwrap();
+    let one = raster::draw_list_banded(&fig, &list, &mut layer, usize::MAX / 8, 0).unwrap();
     assert!(
         one.height() > 256,
         "{} rows: bands would not be tested",
         one.height()
     );
-    for rows in [256, 37] {
-        let banded = raster::draw_list_banded(&fig, &list, &mut layer, rows).unwrap();
+    for (rows, direct) in [(256, 0), (37, 0), (256, 64), (37, usize::MAX)] {
+        let banded = raster::draw_list_banded(&fig, &list, &mut layer, rows, direct).unwrap();
         let (mut worst, mut differ) = (0u8, 0usize);
         for (p, q) in one.data().chunks(4).zip(banded.data().chunks(4)) {
             let d = (0..4).map(|k| p[k].abs_diff(q[k])).max().unwrap();
@@ -230,7 +230,7 @@ fn bands_draw_the_picture_one_pass_draws() {
         }
         assert!(
             differ == 0,
-            "bands of {rows}: {differ} pixels differ (worst {worst})"
+            "bands of {rows}, runs ≤ {direct} in one pass: {differ} pixels differ (worst {worst})"
         );
     }
 }
