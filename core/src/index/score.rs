@@ -36,7 +36,8 @@ pub struct ScoreOptions {
     pub min_rows: usize,
     /// A candidate of complexity c must be seen over max(1, c × this) times the smallest
     /// run: the complex families hold many more lines, so a chance alignment with a few rows
-    /// of some ridge is likelier among them and they need longer evidence.
+    /// of some ridge is likelier among them and they need longer evidence (the fractional
+    /// fan excepted, see [`rows_scale`]).
     pub rows_per_complexity: f64,
     /// Two detections closer than this many columns on average over their common rows explain
     /// the same ridge.
@@ -247,8 +248,7 @@ pub fn score_lines(
     let evaluate = |k: usize, dmax: &Array2<f64>| {
         let col: Vec<f64> = (0..rows).map(|i| pos[[i, k]]).collect();
         let lim: Vec<f64> = (0..rows).map(|i| dmax[[i, k]]).collect();
-        let need = (min_rows as f64 * (opts.rows_per_complexity * cands[k].complexity).max(1.0))
-            .ceil() as usize;
+        let need = (min_rows as f64 * rows_scale(&cands[k], opts)).ceil() as usize;
         let score_needed = score_needed(&cands[k], opts);
         line_evidence(k, g, &col, &lim, b, win, (need, score_needed), opts)
     };
@@ -278,7 +278,9 @@ pub fn score_lines(
 /// nearest other candidate line of no greater complexity (a coincident line counts, so where
 /// lines converge no row is evidence for any one of them, and a complex candidate inside the
 /// broad plateau of a simpler state has no contrast). With `ridges` (rows × candidates), a
-/// simpler candidate limits another only in the rows where it stands on a ridge itself.
+/// simpler candidate limits another only in the rows where it stands on a ridge itself, or
+/// where it is a fan line (s = 0) closer than two smallest side offsets: where the fan
+/// converges towards zero field no row is evidence for a fraction between its lines.
 /// Rows × candidates.
 fn side_limits(
     pos: &Array2<f64>,
@@ -297,6 +299,9 @@ fn side_limits(
                 .map(|k| (pos[[i, k]], k))
                 .collect();
             members.sort_by(|a, c| a.0.total_cmp(&c.0));
+            // A fan line (s = 0) this close is not told apart whether or not it stands on a
+            // ridge: where the fan converges at low field no row is evidence for a fraction.
+            let unresolved = |d: f64| d < 2.0 * MIN_SIDE_COLUMNS;
             for (r, &(pk, m)) in members.iter().enumerate() {
                 let ck = cands[m].complexity;
                 let mut best = cols as f64;
@@ -305,7 +310,10 @@ fn side_limits(
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck && ridges.is_none_or(|r| r[[i, o]]) {
+                    if cands[o].complexity <= ck
+                        && ((unresolved(d) && cands[o].s.is_zero())
+                            || ridges.is_none_or(|r| r[[i, o]]))
+                    {
                         best = d;
                         break;
                     }
@@ -315,7 +323,10 @@ fn side_limits(
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck && ridges.is_none_or(|r| r[[i, o]]) {
+                    if cands[o].complexity <= ck
+                        && ((unresolved(d) && cands[o].s.is_zero())
+                            || ridges.is_none_or(|r| r[[i, o]]))
+                    {
                         best = d;
                         break;
                     }
@@ -465,6 +476,18 @@ fn line_evidence(
     }
     let ridge = smooth.iter().map(|&c| c > opts.row_threshold).collect();
     (ev, ridge)
+}
+
+/// How many times the smallest run a candidate must be seen over: its complexity ×
+/// [`ScoreOptions::rows_per_complexity`] (at least 1), except for the fractional fan, which
+/// needs only the smallest run: its family holds a few dozen lines (little look-elsewhere
+/// effect), and its states open only at the highest fields, where a map holds few rows.
+pub fn rows_scale(cand: &Candidate, opts: &ScoreOptions) -> f64 {
+    if cand.line.family == Family::CompositeFermion {
+        1.0
+    } else {
+        (opts.rows_per_complexity * cand.complexity).max(1.0)
+    }
 }
 
 /// Smallest mean contrast that detects `cand`: [`ScoreOptions::min_score`], raised for the
@@ -736,5 +759,30 @@ mod tests {
         assert_eq!(seen[[1, 1]], 50.0);
         // The simpler line is never limited by the fraction.
         assert_eq!(seen[[1, 0]], 50.0);
+    }
+
+    #[test]
+    fn where_the_fan_converges_a_fraction_beside_a_fan_line_has_no_evidence() {
+        // Row 0 (high field): ν = 0 is 30 columns from ν = 1/3; row 1 (low field): 1.5 columns.
+        // ν = 0 stands on a ridge in neither row; a Wannier line sits 1.5 columns from the
+        // fraction in row 0, also off any ridge.
+        let fan = cand(Family::BrokenSymmetry, 0, 0);
+        let wannier = cand(Family::Wannier, 1, 1);
+        let line = Line::gap(
+            Family::CompositeFermion,
+            "test",
+            Rational::new(1, 3).unwrap(),
+            Rational::ZERO,
+        );
+        let fraction = Candidate::from_line(line).unwrap();
+        assert!(fan.complexity < fraction.complexity && wannier.complexity < fraction.complexity);
+        let cands = vec![fan, wannier, fraction];
+        let pos = Array2::from_shape_vec((2, 3), vec![10.0, 41.5, 40.0, 10.0, 80.0, 11.5]).unwrap();
+        let ridges = Array2::from_elem((2, 3), false);
+        let seen = side_limits(&pos, &cands, 100, Some(&ridges));
+        // Unresolved from the fan line: below the smallest side offset, so no evidence.
+        assert!(seen[[1, 2]] < MIN_SIDE_COLUMNS, "{}", seen[[1, 2]]);
+        // A Wannier line off its ridge does not limit it, nor does the far fan line.
+        assert_eq!(seen[[0, 2]], 50.0);
     }
 }
