@@ -158,7 +158,12 @@ impl Pyramid {
             let i0 = a.floor() as usize;
             Some((i0, (i0 + 1).min(n - 1), a - i0 as f64))
         };
-        let xcells: Vec<Option<(usize, usize, f64)>> = cols.iter().map(|&p| cell(p, nx)).collect();
+        // Per column (first cell, second cell, weight); a column outside the level gets the
+        // weight NaN, which makes its samples NaN without a branch in the loop.
+        let xcells: Vec<(usize, usize, f64)> = cols
+            .iter()
+            .map(|&p| cell(p, nx).unwrap_or((0, 0, f64::NAN)))
+            .collect();
         let ycells: Vec<Option<(usize, usize, f64)>> = rows.iter().map(|&p| cell(p, ny)).collect();
         out.par_chunks_mut(width.max(1))
             .zip(ycells.par_iter())
@@ -167,13 +172,11 @@ impl Pyramid {
                     return;
                 };
                 let (r0, r1) = (&flat[i0 * nx..(i0 + 1) * nx], &flat[i1 * nx..(i1 + 1) * nx]);
-                for (out, xc) in row.iter_mut().zip(&xcells) {
-                    if let Some((j0, j1, tx)) = *xc {
-                        let (v00, v01, v10, v11) = (r0[j0], r0[j1], r1[j0], r1[j1]);
-                        let top = v00 + (v01 - v00) * tx;
-                        let bot = v10 + (v11 - v10) * tx;
-                        *out = (top + (bot - top) * ty) * factor;
-                    }
+                for (out, &(j0, j1, tx)) in row.iter_mut().zip(&xcells) {
+                    let (v00, v01, v10, v11) = (r0[j0], r0[j1], r1[j0], r1[j1]);
+                    let top = v00 + (v01 - v00) * tx;
+                    let bot = v10 + (v11 - v10) * tx;
+                    *out = (top + (bot - top) * ty) * factor;
                 }
             });
         out
