@@ -574,6 +574,17 @@ mod tests {
     use super::*;
     use crate::map::{Axis, Quantity};
 
+    /// The fractional fan's ν = 1/3.
+    fn one_third() -> Candidate {
+        let line = Line::gap(
+            Family::CompositeFermion,
+            "test",
+            Rational::new(1, 3).unwrap(),
+            Rational::ZERO,
+        );
+        Candidate::from_line(line).unwrap()
+    }
+
     fn cand(family: Family, t: i64, s: i64) -> Candidate {
         let line = Line::gap(family, "test", Rational::integer(t), Rational::integer(s));
         Candidate::from_line(line).expect("a gap line")
@@ -740,13 +751,7 @@ mod tests {
     fn a_simpler_line_limits_a_fraction_only_where_it_stands_on_a_ridge() {
         // Two rows; a Wannier line (simpler) 1.5 columns from the fractional ν = 1/3.
         let wannier = cand(Family::Wannier, 1, 1);
-        let line = Line::gap(
-            Family::CompositeFermion,
-            "test",
-            Rational::new(1, 3).unwrap(),
-            Rational::ZERO,
-        );
-        let fraction = Candidate::from_line(line).unwrap();
+        let fraction = one_third();
         assert!(wannier.complexity < fraction.complexity);
         let cands = vec![wannier, fraction];
         let pos = Array2::from_shape_vec((2, 2), vec![10.0, 11.5, 10.0, 11.5]).unwrap();
@@ -768,13 +773,7 @@ mod tests {
         // fraction in row 0, also off any ridge.
         let fan = cand(Family::BrokenSymmetry, 0, 0);
         let wannier = cand(Family::Wannier, 1, 1);
-        let line = Line::gap(
-            Family::CompositeFermion,
-            "test",
-            Rational::new(1, 3).unwrap(),
-            Rational::ZERO,
-        );
-        let fraction = Candidate::from_line(line).unwrap();
+        let fraction = one_third();
         assert!(fan.complexity < fraction.complexity && wannier.complexity < fraction.complexity);
         let cands = vec![fan, wannier, fraction];
         let pos = Array2::from_shape_vec((2, 3), vec![10.0, 41.5, 40.0, 10.0, 80.0, 11.5]).unwrap();
