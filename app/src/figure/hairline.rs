@@ -116,8 +116,6 @@ pub fn draw_hairline(
         // coverage is the line's own and its middle moves by `slope` a step.
         let inner0 = ((-floor(-ulo)) as i64).clamp(first, last);
         let inner1 = (floor(uhi) as i64).clamp(inner0, last);
-        // The coverage `a` of slab p, its middle at v: shared between the two pixels the
-        // line passes between.
         // One slab with its parameter range found afresh (the ends of the segment): its
         // coverage and the v of its middle.
         let one = |p: i64, pattern: &mut Option<DashCursor>| -> Option<(f64, f64)> {
