@@ -4,47 +4,8 @@
 //! patterns are applied along the arc length, partial dashes by the fraction of the step they
 //! cover. Far cheaper than stroking many short dashes one by one.
 
+use super::stroke::Packed;
 use tiny_skia::Pixmap;
-
-/// An opaque colour as the RGBA bytes of a pixel, split into its (red, blue) and (green,
-/// alpha) byte pairs, each in a 16-bit lane, so that blending does two channels per multiply.
-#[derive(Clone, Copy)]
-struct Packed {
-    rb: u32,
-    ga: u32,
-}
-
-/// The low byte of each 16-bit lane.
-const LANES: u32 = 0x00FF_00FF;
-
-impl Packed {
-    fn opaque(c: [u8; 3]) -> Packed {
-        let v = u32::from_le_bytes([c[0], c[1], c[2], 255]);
-        Packed {
-            rb: v & LANES,
-            ga: (v >> 8) & LANES,
-        }
-    }
-
-    /// Blend this colour at alpha `a` (0…255) over the premultiplied pixel `px`:
-    /// px = (c·a + px·(255 − a)) / 255 per channel, rounded as `stroke::blend_opaque` rounds
-    /// ((v + 128 + ((v + 128) >> 8)) >> 8). No lane overflows: 255·255 + 128 + 254 < 2¹⁶.
-    #[inline(always)]
-    fn blend_onto(self, px: &mut [u8], a: u32) {
-        let Ok(bytes) = <[u8; 4]>::try_from(&*px) else {
-            return;
-        };
-        let d = u32::from_le_bytes(bytes);
-        let k = 255 - a.min(255);
-        let a = 255 - k;
-        let lane = |s: u32, d: u32| {
-            let v = s * a + d * k + 0x0080_0080;
-            ((v + ((v >> 8) & LANES)) >> 8) & LANES
-        };
-        let out = lane(self.rb, d & LANES) | (lane(self.ga, (d >> 8) & LANES) << 8);
-        px.copy_from_slice(&out.to_le_bytes());
-    }
-}
 
 /// Draw the polyline `points` (device px, in `pm`'s own pixel frame) in opaque `color` with
 /// `coverage` (0…1: the line's width in px) and the dash pattern `dash` (device px, on/off
@@ -518,28 +479,6 @@ mod tests {
         assert!(DashCursor::new(&[3.0]).is_none());
         assert!(DashCursor::new(&[0.0, 0.0]).is_none());
         assert!(DashCursor::new(&[1.0, f64::NAN]).is_none());
-    }
-
-    #[test]
-    fn packed_blending_is_the_per_channel_formula() {
-        // Source-over of an opaque colour at alpha a on premultiplied bytes (Porter & Duff
-        // 1984), each channel rounded: (c·a + d·(255 − a)) / 255, with the alpha channel's
-        // colour 255; checked over a spread of colours, pixels and alphas.
-        let mut rng = fanmark_core::synth::rng::SplitMix64::new(7);
-        for _ in 0..20_000 {
-            let r = rng.next_u64().to_le_bytes();
-            let (c, d, a) = ([r[0], r[1], r[2]], [r[3], r[4], r[5], r[6]], r[7] as u32);
-            let mut px = d;
-            Packed::opaque(c).blend_onto(&mut px, a);
-            let src = [c[0], c[1], c[2], 255];
-            for ch in 0..4 {
-                let exact = (src[ch] as f64 * a as f64 + d[ch] as f64 * (255.0 - a as f64)) / 255.0;
-                assert!(
-                    (px[ch] as f64 - exact).abs() <= 0.5 + 1e-9,
-                    "{c:?} over {d:?} at {a}: {px:?}"
-                );
-            }
-        }
     }
 
     #[test]
