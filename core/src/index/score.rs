@@ -304,16 +304,19 @@ fn side_limits(
             let unresolved = |d: f64| d < 2.0 * MIN_SIDE_COLUMNS;
             for (r, &(pk, m)) in members.iter().enumerate() {
                 let ck = cands[m].complexity;
+                // Whether candidate `o`, `d` columns away, limits this one.
+                let limits = |o: usize, d: f64| {
+                    cands[o].complexity <= ck
+                        && ((unresolved(d) && cands[o].s.is_zero())
+                            || ridges.is_none_or(|r| r[[i, o]]))
+                };
                 let mut best = cols as f64;
                 for &(po, o) in members[..r].iter().rev() {
                     let d = pk - po;
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck
-                        && ((unresolved(d) && cands[o].s.is_zero())
-                            || ridges.is_none_or(|r| r[[i, o]]))
-                    {
+                    if limits(o, d) {
                         best = d;
                         break;
                     }
@@ -323,10 +326,7 @@ fn side_limits(
                     if d >= best {
                         break;
                     }
-                    if cands[o].complexity <= ck
-                        && ((unresolved(d) && cands[o].s.is_zero())
-                            || ridges.is_none_or(|r| r[[i, o]]))
-                    {
+                    if limits(o, d) {
                         best = d;
                         break;
                     }
