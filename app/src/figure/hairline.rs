@@ -178,34 +178,54 @@ impl Canvas<'_> {
 
     /// The steps of `run`, the k-th with coverage `alpha(k)` (0…255): the minor-axis position
     /// stepped in fixed point with 24 fractional bits (over 4096 steps it drifts less than
-    /// 10⁻³ px), split between the two pixels in 1/256 steps as [`Self::put`] splits it.
+    /// 10⁻³ px), split between the two pixels in 1/256 steps as [`Self::put`] splits it. The
+    /// pixel index moves by a fixed stride a step; only a step whose pair of pixels straddles
+    /// the minor axis' clip is checked pixel by pixel. (A zero alpha leaves a pixel as it was,
+    /// so it needs no test.)
     #[inline(always)]
     fn run(&mut self, r: &Run, mut alpha: impl FnMut(i64) -> u32) {
         const ONE: f64 = (1u64 << 24) as f64;
         let (x0, y0, x1, y1) = self.clip;
-        // The minor axis' clip; the major-axis pixels of a run lie inside the clip.
+        // The run's major-axis pixels lie inside the clip (the caller clamps them to it); its
+        // first and last must lie inside the pixmap for the strides below to stay in it.
+        let (plo, phi) = if r.steep { (y0, y1) } else { (x0, x1) };
+        let p_last = r.p + r.dp * (r.n - 1);
+        if r.n <= 0 || r.p.min(p_last) < plo || r.p.max(p_last) >= phi {
+            return;
+        }
+        // The minor axis' clip, and the byte strides of one major and one minor step.
         let (lo, hi) = if r.steep { (x0, x1) } else { (y0, y1) };
+        let row = self.width * 4;
+        let (major, minor) = if r.steep {
+            (r.dp * row, 4)
+        } else {
+            (r.dp * 4, row)
+        };
+        let mut at = if r.steep { r.p * row } else { r.p * 4 };
         let mut v = (r.v * ONE).round() as i64;
         let dv = (r.dv * ONE).round() as i64;
-        let mut p = r.p;
+        let src = self.src;
         for k in 0..r.n {
             let total = alpha(k);
             let q = v >> 24;
             let second = (total * ((v >> 16) & 0xFF) as u32 + 128) >> 8;
-            for (q, a) in [(q, total - second), (q + 1, second)] {
-                if a == 0 || q < lo || q >= hi {
-                    continue;
+            let i = at + q * minor;
+            if q >= lo && q + 1 < hi {
+                if let Some(px) = self.data.get_mut(i as usize..(i + minor + 4) as usize) {
+                    let (a, b) = px.split_at_mut(minor as usize);
+                    src.blend_onto(&mut a[..4], total - second);
+                    src.blend_onto(&mut b[..4], second);
                 }
-                let (x, y) = if r.steep { (q, p) } else { (p, q) };
-                if y < y0 || y >= y1 || x < x0 || x >= x1 {
-                    continue;
-                }
-                let i = ((y * self.width + x) * 4) as usize;
-                if let Some(px) = self.data.get_mut(i..i + 4) {
-                    self.src.blend_onto(px, a);
+            } else {
+                for (q, i, a) in [(q, i, total - second), (q + 1, i + minor, second)] {
+                    if q >= lo && q < hi {
+                        if let Some(px) = self.data.get_mut(i as usize..i as usize + 4) {
+                            src.blend_onto(px, a);
+                        }
+                    }
                 }
             }
-            p += r.dp;
+            at += major;
             v += dv;
         }
     }
