@@ -305,6 +305,7 @@ fn huge_map() {
         features: FeatureIndex::new(Vec::new(), 80.0, 8.5).unwrap(),
         states: Vec::new(),
         sigma_xy_e2h: None,
+        notes: Vec::new(),
     };
     let mut s = ViewState::new(Arc::new(vd));
     s.apply(Action::ToggleFamily(Family::Satellite));

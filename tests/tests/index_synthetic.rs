@@ -277,6 +277,90 @@ fn a_device_without_superlattice_searched_as_moire_gets_no_n0() {
     }
 }
 
+/// The insulating peaks of R_xx at zero field and the note they give a moiré device indexed as
+/// a monolayer. Physics: a monolayer has one resistance maximum, at charge neutrality; an
+/// aligned moiré device also has the band insulators at n = ±4 n₀ (full filling of the
+/// four-fold degenerate miniband, common practice for graphene on hBN), and the generator's
+/// moiré device has smaller peaks at ±2 n₀, where its carriers change from the main cone's to a
+/// satellite cone's (the Hall sign changes).
+#[test]
+fn insulating_peaks_tell_a_moire_device_from_a_monolayer() {
+    use fanmark_core::index::calibrate::{calibrate_map, insulating_peaks};
+    use fanmark_core::index::features::{find_minima, gap_map, GapMapOptions};
+    for seed in [1, 2, 3] {
+        let s = generate(&SynthConfig::varied(DeviceName::Wren, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let peaks = insulating_peaks(&map);
+        assert_eq!(peaks.len(), 1, "wren {seed}: {peaks:?}");
+        assert!(
+            (peaks[0] - s.truth.v_cnp_v).abs() < 0.5,
+            "wren {seed}: {peaks:?}"
+        );
+        let gap = gap_map(&map, &GapMapOptions::default()).unwrap();
+        let minima = find_minima(&map, &gap, 3.0);
+        let cal = calibrate_map(&map, &minima, Stack::Monolayer, None).unwrap();
+        assert!(
+            cal.notes.iter().all(|n| !n.contains("monolayer-moire")),
+            "wren {seed}: {:?}",
+            cal.notes
+        );
+    }
+    let mut tested = 0;
+    for seed in 6..=10 {
+        let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
+        let map = synthetic::synthesis_map(&s).unwrap();
+        let (v0, alpha, n0) = (
+            s.truth.v_cnp_v,
+            s.truth.alpha_cm2_per_v,
+            s.truth.n0_cm2.unwrap(),
+        );
+        let peaks = insulating_peaks(&map);
+        let (g0, g1) = (map.x().min(), map.x().max());
+        // Every peak inside the gate range, with room for its far side, is found within 3 %
+        // of the range: charge neutrality and the band insulators at s = ±4.
+        let want: Vec<f64> = [-4.0, 0.0, 4.0]
+            .iter()
+            .map(|s| v0 + s * n0 / alpha)
+            .filter(|v| *v > g0 + 0.05 * (g1 - g0) && *v < g1 - 0.05 * (g1 - g0))
+            .collect();
+        // A measurement whose gate range ends at a band insulator has only neutrality to show.
+        if want.len() < 2 {
+            continue;
+        }
+        tested += 1;
+        for w in &want {
+            assert!(
+                peaks.iter().any(|p| (p - w).abs() < 0.03 * (g1 - g0)),
+                "tern {seed}: no peak near {w:.3} V in {peaks:?}"
+            );
+        }
+        // Nothing else: every peak found lies at a band insulator, charge neutrality or the
+        // half-filled miniband (s = ±2).
+        for p in &peaks {
+            assert!(
+                [-4.0, -2.0, 0.0, 2.0, 4.0]
+                    .iter()
+                    .any(|s| (p - (v0 + s * n0 / alpha)).abs() < 0.03 * (g1 - g0)),
+                "tern {seed}: peak at {p:.3} V is at no filling of the miniband"
+            );
+        }
+        let gap = gap_map(&map, &GapMapOptions::default()).unwrap();
+        let minima = find_minima(&map, &gap, 3.0);
+        let cal = calibrate_map(&map, &minima, Stack::Monolayer, None).unwrap();
+        assert!(
+            cal.notes.iter().any(|n| n.contains("monolayer-moire")),
+            "tern {seed}: {:?}",
+            cal.notes
+        );
+        let cal = calibrate_map(&map, &minima, Stack::MonolayerMoire, None).unwrap();
+        assert!(cal.notes.iter().all(|n| !n.contains("insulating peaks")));
+    }
+    assert!(
+        tested >= 2,
+        "{tested} moiré measurements show two peaks or more"
+    );
+}
+
 #[test]
 fn hall_slope_and_quantum_hall_calibrations_agree_within_uncertainties() {
     use fanmark_core::index::calibrate::{from_hall_slope, from_quantum_hall};

@@ -50,6 +50,9 @@ pub fn run(a: Args) -> anyhow::Result<()> {
         "calibration ({:?}): α = {:.5e} ± {:.1e} cm⁻² V⁻¹, V_CNP = {:.4} ± {:.4} V",
         c.method, c.alpha_cm2_per_v, c.alpha_sigma_cm2_per_v, c.v_cnp_v, c.v_cnp_sigma_v
     );
+    for n in &c.notes {
+        println!("note: {n}");
+    }
     if let Some(m) = &r.moire {
         println!(
             "moiré: n₀ = {:.4e} ± {:.1e} cm⁻², λ = {:.3} nm, twist {}",

@@ -215,6 +215,9 @@ fn strip_view_json(p: &Path) -> PathBuf {
 pub fn run(a: Args) -> anyhow::Result<()> {
     let size = parse_size(&a.render_size)?;
     let (st, out) = prepare(&a)?;
+    for n in &st.data.notes {
+        eprintln!("note: {n}");
+    }
     if let Some(png) = &a.render_to {
         return render_to(st, png, size, a.render_scale);
     }

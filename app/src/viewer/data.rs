@@ -108,6 +108,8 @@ pub struct ViewData {
     pub states: Vec<IndexedState>,
     /// σ_xy in e²/h on the map grid (sign so that it grows with n), for Hall checks.
     pub sigma_xy_e2h: Option<Array2<f64>>,
+    /// What the calibration noticed about the data (for the user; empty without indexing).
+    pub notes: Vec<String>,
 }
 
 /// FNV-1a 64-bit hash of `bytes` as 16 hex digits (detects a changed data file).
@@ -176,11 +178,13 @@ impl ViewData {
     ) -> Result<ViewData> {
         let rxx = map.require(ChannelKind::Rxx)?.data.clone();
         let (mut gate, mut n0, mut states) = (opts.fallback_gate, opts.fallback_n0_m2, Vec::new());
+        let mut notes = Vec::new();
         if opts.index {
             if let Ok(rep) = index_map(&map, &IndexOptions::new(opts.stack)) {
                 gate = rep.calibration.gate();
                 n0 = rep.moire.map(|m| m.n0_cm2 * 1e4).or(n0);
                 states = rep.states;
+                notes = rep.calibration.notes;
             }
         }
         let mut channels = vec![ChannelData {
@@ -255,6 +259,7 @@ impl ViewData {
             features,
             states,
             sigma_xy_e2h,
+            notes,
         })
     }
 

@@ -725,6 +725,94 @@ pub fn choose(
     })
 }
 
+/// Smallest ratio of an insulating peak's R_xx to the median of its trace.
+const PEAK_OVER_MEDIAN: f64 = 3.0;
+/// Smallest fall of R_xx on each side of an insulating peak, as a ratio (within a tenth of the
+/// gate range, or before a higher point): a shoulder on a broader peak is not a peak.
+const PEAK_OVER_SIDES: f64 = 2.0;
+
+/// Gate voltages (V) of the insulating peaks of R_xx at the lowest field of `map`: local
+/// maxima at least [`PEAK_OVER_MEDIAN`] times the median of the trace, falling by at least
+/// [`PEAK_OVER_SIDES`] on both sides (a peak at the edge of the gate range, with no lower
+/// ground beyond it, is not counted). R_xx is taken in log scale over the rows within 0.1 T of
+/// the lowest |B| (their mean), smoothed by a five-point running median against spikes.
+/// A monolayer or bilayer shows one, at charge neutrality; an aligned moiré device also shows
+/// the band insulators at s = ±4 (and sometimes correlated states between them).
+pub fn insulating_peaks(map: &Map) -> Vec<f64> {
+    let Some(c) = map.channel_of(ChannelKind::Rxx) else {
+        return Vec::new();
+    };
+    let (x, y) = (map.x().values(), map.y().values());
+    let low = y.iter().map(|b| b.abs()).fold(f64::INFINITY, f64::min);
+    let rows: Vec<usize> = (0..y.len()).filter(|&i| y[i].abs() <= low + 0.1).collect();
+    let cols = x.len();
+    if rows.is_empty() || cols < 5 {
+        return Vec::new();
+    }
+    let logs: Vec<f64> = (0..cols)
+        .map(|j| {
+            let v: Vec<f64> = rows
+                .iter()
+                .map(|&i| c.data[[i, j]])
+                .filter(|r| r.is_finite() && *r > 0.0)
+                .map(f64::log10)
+                .collect();
+            if v.is_empty() {
+                f64::NAN
+            } else {
+                v.iter().sum::<f64>() / v.len() as f64
+            }
+        })
+        .collect();
+    let trace: Vec<f64> = (0..cols)
+        .map(|j| median(logs[j.saturating_sub(2)..(j + 3).min(cols)].iter().copied()))
+        .collect();
+    let base = median(trace.iter().copied());
+    if !base.is_finite() {
+        return Vec::new();
+    }
+    let reach = (cols / 10).max(2);
+    let fall = PEAK_OVER_SIDES.log10();
+    // Lowest point on one side of `j` (stepping by `dir`) before a higher point or `reach`
+    // columns; None at the edge of the trace without lower ground.
+    let side = |j: usize, dir: isize| -> Option<f64> {
+        let mut lowest = f64::INFINITY;
+        let mut k = j as isize;
+        for _ in 0..reach {
+            k += dir;
+            if k < 0 || k >= cols as isize {
+                break;
+            }
+            let v = trace[k as usize];
+            if v > trace[j] {
+                break;
+            }
+            lowest = lowest.min(v);
+            if lowest <= trace[j] - fall {
+                return Some(lowest);
+            }
+        }
+        (lowest <= trace[j] - fall).then_some(lowest)
+    };
+    let mut peaks = Vec::new();
+    let mut j = 0;
+    while j < cols {
+        let v = trace[j];
+        // The first column of a plateau of equal values stands for it.
+        let top = v.is_finite()
+            && v >= base + PEAK_OVER_MEDIAN.log10()
+            && (j == 0 || trace[j - 1] < v)
+            && (j + 1 == cols || trace[j + 1] <= v);
+        if top && side(j, -1).is_some() && side(j, 1).is_some() {
+            peaks.push(x[j]);
+            j += reach.min(cols);
+            continue;
+        }
+        j += 1;
+    }
+    peaks
+}
+
 fn low_field_peak(map: &Map) -> f64 {
     let x = map.x().values();
     match map.channel_of(ChannelKind::Rxx) {
@@ -943,6 +1031,20 @@ pub fn calibrate_map(
                 ));
                 b = Some(r);
             }
+        }
+    }
+    if !stack.is_moire() {
+        let peaks = insulating_peaks(map);
+        if peaks.len() >= 2 {
+            let at: Vec<String> = peaks.iter().map(|v| format!("{v:.3}")).collect();
+            notes.push(format!(
+                "R_xx at the lowest field has {} insulating peaks (V_g = {} V) where a {} \
+                 device has one, at charge neutrality: if this is a moiré device, choose the \
+                 monolayer-moire stack, or the fan may be anchored on a band insulator",
+                peaks.len(),
+                at.join(", "),
+                stack.name()
+            ));
         }
     }
     let mut est: Vec<GateEstimate> = [b, a].into_iter().flatten().collect();
