@@ -132,14 +132,24 @@ pub fn draw_hairline(
                 v,
                 dv: dvs,
             };
+            let total = alpha_of(cov);
             match pattern.as_mut() {
-                None => {
-                    let total = alpha_of(cov);
-                    canvas.run(&run, |_| total);
-                }
+                None => canvas.run(&run, |_| (total, n)),
                 Some(d) => canvas.run(&run, |k| {
-                    let s_at = s_at + k as f64 * arc_per_u;
-                    alpha_of(cov * on_share(d.on_step(s_at, arc_per_u), arc_per_u))
+                    // The first step finds its place in the pattern; the rest follow on.
+                    let h = arc_per_u;
+                    let on = if k == 0 {
+                        d.on_step(s_at, h)
+                    } else {
+                        d.advance(h)
+                    };
+                    // A step wholly on or off needs no division, and the steps after it that
+                    // lie wholly inside the same entry of the pattern share its coverage.
+                    if on != 0.0 && on != h {
+                        return (alpha_of(cov * on_share(on, h)), 1);
+                    }
+                    let more = d.pass_whole_steps(h, n - k - 1);
+                    (if on == 0.0 { 0 } else { total }, 1 + more)
                 }),
             }
         }
@@ -176,14 +186,16 @@ impl Canvas<'_> {
         }
     }
 
-    /// The steps of `run`, the k-th with coverage `alpha(k)` (0…255): the minor-axis position
-    /// stepped in fixed point with 24 fractional bits (over 4096 steps it drifts less than
-    /// 10⁻³ px), split between the two pixels in 1/256 steps as [`Self::put`] splits it. The
-    /// pixel index moves by a fixed stride a step; only a step whose pair of pixels straddles
-    /// the minor axis' clip is checked pixel by pixel. (A zero alpha leaves a pixel as it was,
-    /// so it needs no test.)
+    /// The steps of `run`, in stretches of equal coverage: `alpha(k)` gives the coverage
+    /// (0…255) of step k and of how many steps from k on (at least one) share it. The
+    /// minor-axis position is stepped in fixed point with 24 fractional bits (over 4096 steps
+    /// it drifts less than 10⁻³ px), split between the two pixels in 1/256 steps as
+    /// [`Self::put`] splits it. The pixel index moves by a fixed stride a step; only a step
+    /// whose pair of pixels straddles the minor axis' clip is checked pixel by pixel. A stretch
+    /// of zero coverage (the gaps of a dash) is passed over in one move. (A zero alpha leaves
+    /// a pixel as it was, so it needs no test.)
     #[inline(always)]
-    fn run(&mut self, r: &Run, mut alpha: impl FnMut(i64) -> u32) {
+    fn run(&mut self, r: &Run, mut alpha: impl FnMut(i64) -> (u32, i64)) {
         const ONE: f64 = (1u64 << 24) as f64;
         let (x0, y0, x1, y1) = self.clip;
         // The run's major-axis pixels lie inside the clip (the caller clamps them to it); its
@@ -205,28 +217,38 @@ impl Canvas<'_> {
         let mut v = (r.v * ONE).round() as i64;
         let dv = (r.dv * ONE).round() as i64;
         let src = self.src;
-        for k in 0..r.n {
-            let total = alpha(k);
-            let q = v >> 24;
-            let second = (total * ((v >> 16) & 0xFF) as u32 + 128) >> 8;
-            let i = at + q * minor;
-            if q >= lo && q + 1 < hi {
-                if let Some(px) = self.data.get_mut(i as usize..(i + minor + 4) as usize) {
-                    let (a, b) = px.split_at_mut(minor as usize);
-                    src.blend_onto(&mut a[..4], total - second);
-                    src.blend_onto(&mut b[..4], second);
-                }
-            } else {
-                for (q, i, a) in [(q, i, total - second), (q + 1, i + minor, second)] {
-                    if q >= lo && q < hi {
-                        if let Some(px) = self.data.get_mut(i as usize..i as usize + 4) {
-                            src.blend_onto(px, a);
+        let mut k = 0;
+        while k < r.n {
+            let (total, count) = alpha(k);
+            let count = count.clamp(1, r.n - k);
+            k += count;
+            if total == 0 {
+                at += major * count;
+                v += dv * count;
+                continue;
+            }
+            for _ in 0..count {
+                let q = v >> 24;
+                let second = (total * ((v >> 16) & 0xFF) as u32 + 128) >> 8;
+                let i = at + q * minor;
+                if q >= lo && q + 1 < hi {
+                    if let Some(px) = self.data.get_mut(i as usize..(i + minor + 4) as usize) {
+                        let (a, b) = px.split_at_mut(minor as usize);
+                        src.blend_onto(&mut a[..4], total - second);
+                        src.blend_onto(&mut b[..4], second);
+                    }
+                } else {
+                    for (q, i, a) in [(q, i, total - second), (q + 1, i + minor, second)] {
+                        if q >= lo && q < hi {
+                            if let Some(px) = self.data.get_mut(i as usize..i as usize + 4) {
+                                src.blend_onto(px, a);
+                            }
                         }
                     }
                 }
+                at += major;
+                v += dv;
             }
-            at += major;
-            v += dv;
         }
     }
 
@@ -337,6 +359,45 @@ impl<'a> DashCursor<'a> {
             return if self.entry % 2 == 0 { h } else { 0.0 };
         }
         self.on_between(sa, sa + h)
+    }
+
+    /// Move the cursor over the steps of arc `h` > 0 that follow, at most `limit`, as long as
+    /// each lies wholly inside the entry it stands in; how many it passed. (They are all on,
+    /// or all off, as that entry is.)
+    #[inline(always)]
+    fn pass_whole_steps(&mut self, h: f64, limit: i64) -> i64 {
+        let whole = ((self.left / h) as i64).clamp(0, limit.max(0));
+        for _ in 0..whole {
+            self.left -= h;
+        }
+        self.at += whole as f64 * h;
+        whole
+    }
+
+    /// Length of "on" in the next `h` ≥ 0 of arc from where the cursor stands, leaving it at
+    /// the end: [`Self::on_between`] without the check for a jump, for steps that follow on.
+    #[inline(always)]
+    fn advance(&mut self, h: f64) -> f64 {
+        let mut todo = h;
+        let mut on = 0.0;
+        loop {
+            let m = todo.min(self.left);
+            if self.entry & 1 == 0 {
+                on += m;
+            }
+            self.left -= m;
+            todo -= m;
+            if todo <= 0.0 {
+                break;
+            }
+            self.entry += 1;
+            if self.entry == self.dash.len() {
+                self.entry = 0;
+            }
+            self.left = self.dash[self.entry];
+        }
+        self.at += h;
+        on
     }
 
     /// Length of "on" between arc lengths `sa` ≤ `sb`, leaving the cursor at `sb`; a jump
