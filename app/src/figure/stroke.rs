@@ -283,6 +283,36 @@ impl Scratch {
             let mut xc = (c0 as i64 + origin.0) as f64 + 0.5;
             let line = &mut self.cov[y * w + c0..y * w + c1];
             let mut any = false;
+            // Where every centre of the row lies along the piece between its ends (at least
+            // ½ inside a butt end, not past a round one), a pixel's coverage is the overlap of
+            // its box with the cross-section alone: t, linear along the row, is checked at the
+            // row's two ends.
+            let along = |x: f64| (x - ax) * p.ux + ry * p.uy;
+            let (ta, tb) = (along(xc), along(xc + (c1 - c0 - 1) as f64));
+            let lower = t_lo.max(if p.butt_start { 0.5 } else { f64::NEG_INFINITY });
+            let upper = t_hi.min(if p.butt_end {
+                p.len - 0.5
+            } else {
+                f64::INFINITY
+            });
+            if ta.min(tb) >= lower + 1e-6 && ta.max(tb) <= upper - 1e-6 {
+                for out in line.iter_mut() {
+                    let q = ((xc - ax) * p.uy - ry * p.ux).abs();
+                    xc += 1.0;
+                    let c = overlap(q, -r, r);
+                    if c > 0.0 {
+                        let v = (c * 255.0 + 0.5) as u8;
+                        if v > *out {
+                            *out = v;
+                        }
+                        any = true;
+                    }
+                }
+                if any {
+                    self.touched(y, c0, c1);
+                }
+                continue;
+            }
             for out in line.iter_mut() {
                 let rx = xc - ax;
                 xc += 1.0;
@@ -318,13 +348,19 @@ impl Scratch {
                 }
             }
             if any {
-                let e = &mut self.rows[y];
-                e.0 = e.0.min(c0);
-                e.1 = e.1.max(c1);
-                self.span.0 = self.span.0.min(y);
-                self.span.1 = self.span.1.max(y + 1);
+                self.touched(y, c0, c1);
             }
         }
+    }
+
+    /// Record that row `y`'s columns `c0..c1` hold coverage.
+    #[inline]
+    fn touched(&mut self, y: usize, c0: usize, c1: usize) {
+        let e = &mut self.rows[y];
+        e.0 = e.0.min(c0);
+        e.1 = e.1.max(c1);
+        self.span.0 = self.span.0.min(y);
+        self.span.1 = self.span.1.max(y + 1);
     }
 
     /// Blend the buffer's coverage of opaque `color` onto `pm` (source-over, premultiplied) and
