@@ -188,6 +188,21 @@ fn overlap(c: f64, lo: f64, hi: f64) -> f64 {
     ((c + 0.5).min(hi) - (c - 0.5).max(lo)).clamp(0.0, 1.0)
 }
 
+/// Raise the coverage byte `out` to coverage `c` (0…1) where that is more; whether `c` covers
+/// anything at all.
+#[inline(always)]
+fn raise(out: &mut u8, c: f64) -> bool {
+    if c > 0.0 {
+        let v = (c * 255.0 + 0.5) as u8;
+        if v > *out {
+            *out = v;
+        }
+        true
+    } else {
+        false
+    }
+}
+
 /// Per-thread coverage buffer of a pixmap's size (zero between calls) and the touched columns of
 /// each row.
 struct Scratch {
@@ -299,52 +314,40 @@ impl Scratch {
                 for out in line.iter_mut() {
                     let q = ((xc - ax) * p.uy - ry * p.ux).abs();
                     xc += 1.0;
-                    let c = overlap(q, -r, r);
-                    if c > 0.0 {
-                        let v = (c * 255.0 + 0.5) as u8;
-                        if v > *out {
-                            *out = v;
-                        }
-                        any = true;
-                    }
+                    any |= raise(out, overlap(q, -r, r));
                 }
-                if any {
-                    self.touched(y, c0, c1);
-                }
-                continue;
-            }
-            for out in line.iter_mut() {
-                let rx = xc - ax;
-                xc += 1.0;
-                let t = rx * p.ux + ry * p.uy;
-                let q = (rx * p.uy - ry * p.ux).abs();
-                let tc = t.clamp(t_lo, t_hi);
-                let mut c = if tc == t {
-                    overlap(q, -r, r)
-                } else {
-                    // Inside the disc of a round join: not past a short neighbour's butt end.
-                    let (limit, (vx, vy)) = if t < 0.0 {
-                        (p.start_limit, (0.0, 0.0))
+            } else {
+                for out in line.iter_mut() {
+                    let rx = xc - ax;
+                    xc += 1.0;
+                    let t = rx * p.ux + ry * p.uy;
+                    let q = (rx * p.uy - ry * p.ux).abs();
+                    let tc = t.clamp(t_lo, t_hi);
+                    let mut c = if tc == t {
+                        overlap(q, -r, r)
                     } else {
-                        (p.end_limit, (p.ux * p.len, p.uy * p.len))
-                    };
-                    let disc = overlap((t - tc).hypot(q), -r, r);
-                    match limit {
-                        Some((nx, ny, nlen)) => {
-                            disc * overlap((rx - vx) * nx + (ry - vy) * ny, f64::NEG_INFINITY, nlen)
+                        // Inside the disc of a round join: not past a short neighbour's butt end.
+                        let (limit, (vx, vy)) = if t < 0.0 {
+                            (p.start_limit, (0.0, 0.0))
+                        } else {
+                            (p.end_limit, (p.ux * p.len, p.uy * p.len))
+                        };
+                        let disc = overlap((t - tc).hypot(q), -r, r);
+                        match limit {
+                            Some((nx, ny, nlen)) => {
+                                disc * overlap(
+                                    (rx - vx) * nx + (ry - vy) * ny,
+                                    f64::NEG_INFINITY,
+                                    nlen,
+                                )
+                            }
+                            None => disc,
                         }
-                        None => disc,
+                    };
+                    if butt {
+                        c *= overlap(t, a_lo, a_hi);
                     }
-                };
-                if butt {
-                    c *= overlap(t, a_lo, a_hi);
-                }
-                if c > 0.0 {
-                    let v = (c * 255.0 + 0.5) as u8;
-                    if v > *out {
-                        *out = v;
-                    }
-                    any = true;
+                    any |= raise(out, c);
                 }
             }
             if any {
