@@ -773,26 +773,20 @@ pub fn insulating_peaks(map: &Map) -> Vec<f64> {
     }
     let reach = (cols / 10).max(2);
     let fall = PEAK_OVER_SIDES.log10();
-    // Lowest point on one side of `j` (stepping by `dir`) before a higher point or `reach`
-    // columns; None at the edge of the trace without lower ground.
-    let side = |j: usize, dir: isize| -> Option<f64> {
-        let mut lowest = f64::INFINITY;
+    // Whether the trace falls by `fall` on the side of `j` that `dir` steps to, within `reach`
+    // columns and before any higher point (not at the edge of the trace without lower ground).
+    let falls = |j: usize, dir: isize| -> bool {
         let mut k = j as isize;
         for _ in 0..reach {
             k += dir;
-            if k < 0 || k >= cols as isize {
-                break;
+            if k < 0 || k >= cols as isize || trace[k as usize] > trace[j] {
+                return false;
             }
-            let v = trace[k as usize];
-            if v > trace[j] {
-                break;
-            }
-            lowest = lowest.min(v);
-            if lowest <= trace[j] - fall {
-                return Some(lowest);
+            if trace[k as usize] <= trace[j] - fall {
+                return true;
             }
         }
-        (lowest <= trace[j] - fall).then_some(lowest)
+        false
     };
     let mut peaks = Vec::new();
     let mut j = 0;
@@ -803,7 +797,7 @@ pub fn insulating_peaks(map: &Map) -> Vec<f64> {
             && v >= base + PEAK_OVER_MEDIAN.log10()
             && (j == 0 || trace[j - 1] < v)
             && (j + 1 == cols || trace[j + 1] <= v);
-        if top && side(j, -1).is_some() && side(j, 1).is_some() {
+        if top && falls(j, -1) && falls(j, 1) {
             peaks.push(x[j]);
             j += reach.min(cols);
             continue;
