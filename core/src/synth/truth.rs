@@ -6,6 +6,7 @@ use super::device::{DeviceName, LAB_NAME};
 use super::flaws::FlawLog;
 use super::model::Model;
 use super::states::StateKind;
+use crate::constants::VON_KLITZING_R_K;
 use crate::rational::Rational;
 use serde::{Deserialize, Serialize};
 
@@ -62,7 +63,9 @@ pub struct TruthState {
     /// included). A gap line is resolvable at a field
     /// when its line lies inside the gate range and its own domain, its plateau spans at least
     /// one gate step, its R_xx dip (or peak) exceeds 3× the noise, the noiseless σ_xx or R_xx
-    /// sampled on the map's gate grid has a minimum within one gate step of the line, and no
+    /// sampled on the map's gate grid has a minimum within one gate step of the line that the
+    /// noise cannot fill (on both sides the values rise more than 3× the noise above it before
+    /// they fall that much below it), and no
     /// other state with
     /// such a dip at least as deep (relative to R_xx) lies within two gate steps in density
     /// (a sampled maximum must separate the two minima, or the weaker is hidden in the
@@ -167,8 +170,8 @@ fn significant_dips(model: &Model, cfg: &SynthConfig, b: f64) -> Vec<f64> {
         .collect()
 }
 
-/// True when state `j`'s gap is resolvable at field `b` given every state's `dips` there;
-/// see [`TruthState::visible`].
+/// True when state `j`'s gap is resolvable at field `b` given every state's `dips` there and
+/// the map's noiseless row at that field; see [`TruthState::visible`].
 fn resolvable(
     model: &Model,
     cfg: &SynthConfig,
@@ -176,10 +179,11 @@ fn resolvable(
     b: f64,
     dips: &[f64],
     gate_step_density: f64,
+    row: &SampledRow,
 ) -> bool {
     if dips[j] <= 0.0
         || 2.0 * model.plateau_half_width(j, b) < gate_step_density
-        || !at_sampled_minimum(model, cfg, j, b)
+        || !row.minimum_near(model, cfg, j, b)
     {
         return false;
     }
@@ -191,34 +195,107 @@ fn resolvable(
     })
 }
 
-/// True when the map, sampled on its gate grid, shows a minimum of the noiseless σ_xx or R_xx
-/// at field `b` within one gate step of state `j`'s line: a sampled value no higher than its
-/// two neighbouring samples. A dip on the steep flank of a stronger feature (an insulating
-/// peak, say) that makes no sampled minimum is not seen in a map, however much it changes
-/// the values there.
-fn at_sampled_minimum(model: &Model, cfg: &SynthConfig, j: usize, b: f64) -> bool {
-    let (g_lo, g_hi) = cfg.gate_range_v;
-    let cols = cfg.gate_points;
-    if cols < 3 {
-        return false;
+/// One field row of the map as the noiseless model gives it on the map's gate grid, with the
+/// measurement noise of each value: each column made on first use.
+struct SampledRow {
+    b: f64,
+    made: Vec<std::cell::OnceCell<Sample>>,
+}
+
+/// A quantity read from a [`Sample`] with the margin the noise sets: (value, 3× its noise).
+type Reading = fn(&Sample) -> (f64, f64);
+
+/// The noiseless values at one gate column: R_xx (Ω) and σ_xx (e²/h), each with its noise
+/// (R_xx's in Ω; σ_xx's relative, carried over from the noise on R_xx and R_xy).
+#[derive(Clone, Copy)]
+struct Sample {
+    rxx: f64,
+    rxx_noise: f64,
+    sxx: f64,
+    sxx_rel_noise: f64,
+}
+
+impl SampledRow {
+    fn new(b: f64, cols: usize) -> SampledRow {
+        SampledRow {
+            b,
+            made: (0..cols).map(|_| std::cell::OnceCell::new()).collect(),
+        }
     }
-    let dv = (g_hi - g_lo) / (cols - 1) as f64;
-    let column = (model.device.gate_for_density(model.line_density(j, b)) - g_lo) / dv;
-    if !column.is_finite() {
-        return false;
-    }
-    let density = |c: i64| model.device.density(g_lo + dv * c as f64);
-    let first = ((column - 1.0).ceil() as i64).max(1);
-    let last = ((column + 1.0).floor() as i64).min(cols as i64 - 2);
-    let quantities: [&dyn Fn(f64) -> f64; 2] = [&|n| model.conductivity(n, b, None).0, &|n| {
-        model.rxx_at_density(n, b, None)
-    }];
-    (first..=last).any(|c| {
-        quantities.iter().any(|f| {
-            let centre = f(density(c));
-            centre <= f(density(c - 1)) && centre <= f(density(c + 1))
+
+    /// The sample at gate column `c` (< the map's columns).
+    fn at(&self, model: &Model, cfg: &SynthConfig, c: usize) -> Sample {
+        *self.made[c].get_or_init(|| {
+            let (g_lo, g_hi) = cfg.gate_range_v;
+            let dv = (g_hi - g_lo) / (cfg.gate_points.max(2) - 1) as f64;
+            let geometry = model.device.length_m / model.device.width_m;
+            let n = model.device.density(g_lo + dv * c as f64);
+            let (rho_xx, rho_xy) = model.resistivity(n, self.b, None);
+            let d = rho_xx * rho_xx + rho_xy * rho_xy;
+            let rxx = rho_xx * geometry;
+            // σ_xx = ρ_xx/(ρ_xx² + ρ_xy²):
+            // d ln σ_xx = (1 − 2ρ_xx²/D) d ln ρ_xx − (2ρ_xy²/D) d ln ρ_xy.
+            let from_xx = (1.0 - 2.0 * rho_xx * rho_xx / d) * cfg.noise.sigma(rxx) / rxx.abs();
+            let from_xy = 2.0 * rho_xy.abs() * cfg.noise.sigma(rho_xy) / d;
+            Sample {
+                rxx,
+                rxx_noise: cfg.noise.sigma(rxx),
+                sxx: VON_KLITZING_R_K * rho_xx / d,
+                sxx_rel_noise: from_xx.hypot(from_xy),
+            }
         })
-    })
+    }
+
+    /// True when the row shows a minimum of R_xx or σ_xx within one gate step of state `j`'s
+    /// line that the noise cannot fill: a sample no higher than its two neighbours from which,
+    /// on both sides, the values rise more than 3× its noise above it before they fall more
+    /// than that below it or the row ends. A flat-bottomed plateau is crossed to its walls;
+    /// a dip on the steep flank of a stronger feature (an insulating peak, say) makes no such
+    /// minimum and is not seen in a map, however much it changes the values there.
+    fn minimum_near(&self, model: &Model, cfg: &SynthConfig, j: usize, b: f64) -> bool {
+        let (g_lo, g_hi) = cfg.gate_range_v;
+        let cols = cfg.gate_points;
+        if cols < 3 {
+            return false;
+        }
+        let dv = (g_hi - g_lo) / (cols - 1) as f64;
+        let column = (model.device.gate_for_density(model.line_density(j, b)) - g_lo) / dv;
+        if !column.is_finite() {
+            return false;
+        }
+        let first = ((column - 1.0).ceil() as i64).max(1) as usize;
+        let last = ((column + 1.0).floor() as i64).min(cols as i64 - 2);
+        if last < first as i64 {
+            return false;
+        }
+        let quantities: [Reading; 2] = [
+            |s| (s.rxx, 3.0 * s.rxx_noise),
+            |s| (s.sxx, 3.0 * s.sxx_rel_noise * s.sxx.abs()),
+        ];
+        let at = |c: usize| self.at(model, cfg, c);
+        (first..=last as usize).any(|c| {
+            quantities.iter().any(|f| {
+                let (here, margin) = f(&at(c));
+                let rises = |side: &mut dyn Iterator<Item = usize>| {
+                    for k in side {
+                        let v = f(&at(k)).0;
+                        if v > here + margin {
+                            return true;
+                        }
+                        if v < here - margin {
+                            return false;
+                        }
+                    }
+                    // The row ended first: no wall is seen on this side.
+                    false
+                };
+                here <= f(&at(c - 1)).0
+                    && here <= f(&at(c + 1)).0
+                    && rises(&mut (0..c).rev())
+                    && rises(&mut (c + 1..cols))
+            })
+        })
+    }
 }
 
 /// Onset field, top field and the number of the map's field rows in which each state is
@@ -237,12 +314,13 @@ fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>
     for i in 0..ONSET_SCAN_POINTS {
         let b = b_lo + (b_hi - b_lo) * i as f64 / (ONSET_SCAN_POINTS - 1) as f64;
         let dips = significant_dips(model, cfg, b);
+        let row = SampledRow::new(b, cfg.gate_points.max(2));
         for (j, o) in out.iter_mut().enumerate() {
             if !inside(j, b) {
                 continue;
             }
             o.1 = Some(b);
-            if o.0.is_none() && resolvable(model, cfg, j, b, &dips, gate_step_density) {
+            if o.0.is_none() && resolvable(model, cfg, j, b, &dips, gate_step_density, &row) {
                 o.0 = Some(b);
             }
         }
@@ -255,8 +333,9 @@ fn visibility(model: &Model, cfg: &SynthConfig) -> Vec<(Option<f64>, Option<f64>
         .then_some(cfg.flaws.field_step_warp.size);
     for b in super::flaws::field_values(b_lo, b_hi, cfg.field_points.max(1), warp) {
         let dips = significant_dips(model, cfg, b);
+        let row = SampledRow::new(b, cfg.gate_points.max(2));
         for (j, o) in out.iter_mut().enumerate() {
-            if resolvable(model, cfg, j, b, &dips, gate_step_density) {
+            if resolvable(model, cfg, j, b, &dips, gate_step_density, &row) {
                 o.2 += 1;
             }
         }
@@ -332,5 +411,41 @@ pub fn build_truth(model: &Model, cfg: &SynthConfig, log: FlawLog) -> Truth {
         states,
         flaws_applied: log,
         config: cfg.clone(),
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::synth::device::Device;
+
+    /// The wren demo model and configuration, and the index of its ν = 2 state.
+    fn wren() -> (Model, SynthConfig, usize) {
+        let cfg = SynthConfig::demo(DeviceName::Wren);
+        let model = Model::new(Device::of(cfg.device), cfg.temperature_k, cfg.disorder);
+        let j = model
+            .states
+            .iter()
+            .position(|s| s.t == Rational::integer(2) && s.s.is_zero())
+            .expect("ν = 2 is in the wren fan");
+        (model, cfg, j)
+    }
+
+    #[test]
+    fn a_flat_bottomed_plateau_is_a_minimum_the_noise_cannot_fill() {
+        let (model, cfg, j) = wren();
+        let b = 10.0;
+        let (g_lo, g_hi) = cfg.gate_range_v;
+        let step = model.device.alpha_m2_per_v() * (g_hi - g_lo) / (cfg.gate_points - 1) as f64;
+        // At 10 T the ν = 2 plateau is many gate steps wide: the walk crosses its flat bottom
+        // to the walls.
+        assert!(2.0 * model.plateau_half_width(j, b) > 4.0 * step);
+        let row = SampledRow::new(b, cfg.gate_points);
+        assert!(row.minimum_near(&model, &cfg, j, b));
+        // With a noise of 1 TΩ, 3× the noise is more than any wall of R_xx or σ_xx: not seen.
+        let mut noisy = cfg.clone();
+        noisy.noise.abs_ohm = 1e12;
+        let row = SampledRow::new(b, cfg.gate_points);
+        assert!(!row.minimum_near(&model, &noisy, j, b));
     }
 }
