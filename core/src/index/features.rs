@@ -64,6 +64,10 @@ pub struct GapMap {
     pub used_sigma_xx: bool,
     /// Fraction of R_xy found mixed into R_xx and subtracted before the logarithm.
     pub misalignment: f64,
+    /// With σ_xx combined in, the strength of ln R_xx alone (`g` is the larger of it and σ_xx's),
+    /// same grid and units: an R_xx dip beside a broad σ_xx feature (a fractional state next to
+    /// the ν = 0 insulator, whose σ_xx trough is wide) makes no ridge in `g` but does here.
+    pub rxx_alone: Option<Array2<f64>>,
 }
 
 /// The `q`-quantile (0…1, linear between neighbouring order statistics) of finite `v`, found
@@ -374,11 +378,13 @@ pub fn gap_map(map: &Map, opts: &GapMapOptions) -> Result<GapMap> {
     let (rows, cols) = map.shape();
     let mut g = Array2::from_elem((rows, cols), f64::NAN);
     let mut noise = vec![0.0; rows];
+    let mut of_rxx = Array2::from_elem((rows, cols), f64::NAN);
     g.axis_iter_mut(NdAxis(0))
         .into_par_iter()
+        .zip(of_rxx.axis_iter_mut(NdAxis(0)))
         .zip(noise.par_iter_mut())
         .enumerate()
-        .for_each(|(i, (mut grow, nz))| {
+        .for_each(|(i, ((mut grow, mut rrow), nz))| {
             let lr: Vec<f64> = (0..cols)
                 .map(|j| {
                     let r = rxx[[i, j]];
@@ -405,10 +411,17 @@ pub fn gap_map(map: &Map, opts: &GapMapOptions) -> Result<GapMap> {
                         })
                         .collect();
                     let (gs, _) = strength_row(&ls, opts);
-                    gr.iter()
+                    let both = gr
+                        .iter()
                         .zip(&gs)
                         .map(|(a, b)| if b.is_finite() { a.max(*b) } else { *a })
-                        .collect()
+                        .collect();
+                    let mut alone = gr;
+                    flatten_floored_runs(&mut alone, &lr, floor.ln());
+                    for (j, v) in alone.into_iter().enumerate() {
+                        rrow[j] = if lr[j].is_finite() { v } else { f64::NAN };
+                    }
+                    both
                 }
                 None => gr,
             };
@@ -424,6 +437,7 @@ pub fn gap_map(map: &Map, opts: &GapMapOptions) -> Result<GapMap> {
         floor_ohm: floor,
         used_sigma_xx: rxy.is_some(),
         misalignment: mix,
+        rxx_alone: rxy.is_some().then_some(of_rxx),
     })
 }
 

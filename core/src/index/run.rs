@@ -5,7 +5,7 @@ use super::calibrate::{calibrate_map, moire_density, Calibration, MoireEstimate}
 use super::features::{
     find_minima, find_plateaus, gap_map, median, sigma_xy_e2h, GapMapOptions, PlateauSegment,
 };
-use super::score::{score_lines, suppress_neighbours, ScoreOptions};
+use super::score::{is_detected, score_lines, suppress_neighbours, LineEvidence, ScoreOptions};
 use super::stack::Stack;
 use crate::constants::E_OVER_H;
 use crate::error::Result;
@@ -232,6 +232,16 @@ pub fn classify(stack: Stack, t: Rational, s: Rational) -> (StateClass, Vec<Stri
     }
 }
 
+/// True when evidence `a` is better than `b` for the same candidate: detected where `b` is not,
+/// or both detected and `a` scores higher.
+fn better_evidence(a: &LineEvidence, b: &LineEvidence, opts: &ScoreOptions) -> bool {
+    match (is_detected(a, opts), is_detected(b, opts)) {
+        (true, false) => true,
+        (true, true) => a.score > b.score,
+        _ => false,
+    }
+}
+
 /// Run the job.
 pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
     let gap = gap_map(map, &GapMapOptions::default())?;
@@ -248,7 +258,19 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
     };
     let n0 = moire.map(|m| m.n0_cm2 * 1e4);
     let cands = opts.stack.candidates()?;
-    let ev = score_lines(map, &gap.g, &gate, n0, &cands, &opts.score);
+    let mut ev = score_lines(map, &gap.g, &gate, n0, &cands, &opts.score);
+    if let Some(rxx) = &gap.rxx_alone {
+        // The fan lines (s = 0) looked at again on R_xx alone, keeping the better evidence:
+        // beside the ν = 0 insulator σ_xx's wide trough fills the combined strength, and a
+        // fraction's R_xx dip there stands on no ridge of it. (Not the Wannier lines: their
+        // many more candidates would meet that many more chance ridges in a second look.)
+        let again = score_lines(map, rxx, &gate, n0, &cands, &opts.score);
+        for (e, o) in ev.iter_mut().zip(again) {
+            if cands[e.candidate].s.is_zero() && better_evidence(&o, e, &opts.score) {
+                *e = o;
+            }
+        }
+    }
     let kept = suppress_neighbours(map, &gate, n0, &cands, &ev, &opts.score);
     let sxy = sigma_xy_e2h(map);
     // Hall sign: σ_xy grows with electron density in the convention reported.
