@@ -87,6 +87,11 @@ impl OverlayLayer {
                 tiny_skia::IntSize::from_wh(w as u32, (bottom - top) as u32)?,
             )
         };
+        // Each hairline's device points found once for all bands, with the rows it spans.
+        let prepared: Vec<Prepared> = items
+            .iter()
+            .map(|it| PreparedHairline::of(it, scale))
+            .collect();
         let bands: Option<Vec<(i64, Pixmap)>> = edges
             .par_windows(2)
             .map(|e| {
@@ -94,8 +99,19 @@ impl OverlayLayer {
                 let origin = (x0 as f64, e[0] as f64);
                 let mut masks = Vec::new();
                 let all = (0, 0, i64::MAX, i64::MAX);
-                for item in items {
-                    draw_overlay_item(&mut pm, item, scale, origin, all, &mut masks);
+                let mut points = Vec::new();
+                for (item, prep) in items.iter().zip(&prepared) {
+                    let Some(h) = prep else {
+                        draw_overlay_item(&mut pm, item, scale, origin, all, &mut masks);
+                        continue;
+                    };
+                    // A hairline touches no pixel more than a row beyond the rows it spans.
+                    if h.rows.1 + 2.0 < e[0] as f64 || h.rows.0 - 2.0 > e[1] as f64 {
+                        continue;
+                    }
+                    points.clear();
+                    points.extend(h.device.iter().map(|p| (p.0 - origin.0, p.1 - origin.1)));
+                    draw_hairline(&mut pm, &points, h.color, h.coverage, &h.dash, all);
                 }
                 Some((e[0], pm))
             })
@@ -209,6 +225,47 @@ pub fn draw_overlay_item(
 
 /// A hairline to draw: points (pt), colour, coverage, dash (device px).
 type Hairline<'a> = (&'a [(f64, f64)], [u8; 3], f64, Vec<f64>);
+
+/// An overlay item that is a hairline, made ready once for every band: its points in device
+/// pixels of the window, the rows they span (lowest, highest y), colour, coverage and dash
+/// (device px). `None` for the other items.
+type Prepared = Option<PreparedHairline>;
+
+/// See [`Prepared`].
+struct PreparedHairline {
+    device: Vec<(f64, f64)>,
+    rows: (f64, f64),
+    color: [u8; 3],
+    coverage: f64,
+    dash: Vec<f64>,
+}
+
+impl PreparedHairline {
+    /// `item` made ready if it is a hairline at `scale` px/pt (as [`draw_overlay_item`] would
+    /// draw it: the same device points, to the bit).
+    fn of(item: &Item, scale: f64) -> Prepared {
+        let (points, color, coverage, dash) = hairline_of(item, scale)?;
+        let device: Vec<(f64, f64)> = points.iter().map(|p| (p.0 * scale, p.1 * scale)).collect();
+        let rows = device
+            .iter()
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), p| {
+                (lo.min(p.1), hi.max(p.1))
+            });
+        // A point that is not a number leaves the span unknown: every band draws the line.
+        let rows = if device.iter().all(|p| p.1.is_finite()) {
+            rows
+        } else {
+            (f64::NEG_INFINITY, f64::INFINITY)
+        };
+        Some(PreparedHairline {
+            device,
+            rows,
+            color,
+            coverage,
+            dash,
+        })
+    }
+}
 
 /// The open stroke no wider than one device pixel that `item` is, as (points in pt, colour,
 /// coverage, dash in device px): drawn as a hairline (its clip rectangle, if any, is the
