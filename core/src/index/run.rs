@@ -261,9 +261,10 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
     let mut ev = score_lines(map, &gap.g, &gate, n0, &cands, &opts.score);
     if let Some(rxx) = &gap.rxx_alone {
         // The fan lines (s = 0) looked at again on R_xx alone, keeping the better evidence:
-        // beside the ν = 0 insulator σ_xx's wide trough fills the combined strength, and a
-        // fraction's R_xx dip there stands on no ridge of it. (Not the Wannier lines: their
-        // many more candidates would meet that many more chance ridges in a second look.)
+        // beside the ν = 0 insulator σ_xx's wide trough fills the combined strength, and the
+        // R_xx dip of a state there (ν = ±1/3, ±2/3, ±1) stands on no ridge of it. (Not the
+        // Wannier lines: their many more candidates would meet that many more chance ridges in
+        // a second look.)
         let again = score_lines(map, rxx, &gate, n0, &cands, &opts.score);
         for (e, o) in ev.iter_mut().zip(again) {
             if cands[e.candidate].s.is_zero() && better_evidence(&o, e, &opts.score) {
