@@ -605,3 +605,20 @@ fn fractions_beside_the_neutrality_insulator_are_seen_in_rxx() {
         "only {checked} visible ν = ±1/3 states to check"
     );
 }
+
+#[test]
+fn calibration_notes_are_said_once() {
+    // The moiré demo device's fans converge at three gate voltages, which both passes of the
+    // fan fit note; the report says it once.
+    let s = generate(&SynthConfig::demo(DeviceName::Tern)).unwrap();
+    let map = synthetic::synthesis_map(&s).unwrap();
+    let rep = index_map(&map, &IndexOptions::new(Stack::MonolayerMoire)).unwrap();
+    let notes = &rep.calibration.notes;
+    assert!(
+        notes.iter().any(|n| n.starts_with("fans converge")),
+        "{notes:?}"
+    );
+    for (i, n) in notes.iter().enumerate() {
+        assert!(!notes[..i].contains(n), "said twice: {n}");
+    }
+}

@@ -714,6 +714,9 @@ pub fn choose(
             ));
         }
     }
+    // A finding reached by both passes of the fan fit is said once.
+    let mut said = std::collections::HashSet::new();
+    notes.retain(|n| said.insert(n.clone()));
     Ok(Calibration {
         alpha_cm2_per_v: pick.alpha_cm2_per_v,
         alpha_sigma_cm2_per_v: pick.alpha_sigma_cm2_per_v,
