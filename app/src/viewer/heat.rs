@@ -121,22 +121,16 @@ pub fn colour_range(values: &Array2<f64>, clip_pct: f64, signed: bool, log: bool
     while stride > 1 && row % stride == 0 {
         stride += 1;
     }
-    let usable = |x: &f64| x.is_finite() && (!log || *x > 0.0);
     // Row-major, as the samples are kept: a slice steps over the values it skips in one move.
-    let mut v: Vec<f64> = match values.as_slice() {
-        Some(flat) => flat
-            .iter()
-            .step_by(stride)
-            .copied()
-            .filter(usable)
-            .collect(),
-        None => values
-            .iter()
-            .step_by(stride)
-            .copied()
-            .filter(usable)
-            .collect(),
-    };
+    let flat = values.as_standard_layout();
+    let mut v: Vec<f64> = flat
+        .as_slice()
+        .unwrap_or_default()
+        .iter()
+        .step_by(stride)
+        .copied()
+        .filter(|x| x.is_finite() && (!log || *x > 0.0))
+        .collect();
     if v.is_empty() {
         return (0.0, 1.0);
     }

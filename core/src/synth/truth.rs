@@ -183,7 +183,7 @@ fn resolvable(
 ) -> bool {
     if dips[j] <= 0.0
         || 2.0 * model.plateau_half_width(j, b) < gate_step_density
-        || !row.minimum_near(model, cfg, j, b)
+        || !row.minimum_near(model, cfg, j)
     {
         return false;
     }
@@ -247,12 +247,13 @@ impl SampledRow {
     }
 
     /// True when the row shows a minimum of R_xx or σ_xx within one gate step of state `j`'s
-    /// line that the noise cannot fill: a sample no higher than its two neighbours from which,
+    /// line at the row's field that the noise cannot fill: a sample no higher than its two neighbours from which,
     /// on both sides, the values rise more than 3× its noise above it before they fall more
     /// than that below it or the row ends. A flat-bottomed plateau is crossed to its walls;
     /// a dip on the steep flank of a stronger feature (an insulating peak, say) makes no such
     /// minimum and is not seen in a map, however much it changes the values there.
-    fn minimum_near(&self, model: &Model, cfg: &SynthConfig, j: usize, b: f64) -> bool {
+    fn minimum_near(&self, model: &Model, cfg: &SynthConfig, j: usize) -> bool {
+        let b = self.b;
         let (g_lo, g_hi) = cfg.gate_range_v;
         let cols = cfg.gate_points;
         if cols < 3 {
@@ -441,11 +442,11 @@ mod tests {
         // to the walls.
         assert!(2.0 * model.plateau_half_width(j, b) > 4.0 * step);
         let row = SampledRow::new(b, cfg.gate_points);
-        assert!(row.minimum_near(&model, &cfg, j, b));
+        assert!(row.minimum_near(&model, &cfg, j));
         // With a noise of 1 TΩ, 3× the noise is more than any wall of R_xx or σ_xx: not seen.
         let mut noisy = cfg.clone();
         noisy.noise.abs_ohm = 1e12;
         let row = SampledRow::new(b, cfg.gate_points);
-        assert!(!row.minimum_near(&model, &noisy, j, b));
+        assert!(!row.minimum_near(&model, &noisy, j));
     }
 }
