@@ -10,6 +10,7 @@ use super::stack::Stack;
 use crate::constants::E_OVER_H;
 use crate::error::Result;
 use crate::gate::Dielectric;
+use crate::line::Family;
 use crate::map::Map;
 use crate::rational::Rational;
 use serde::{Deserialize, Serialize};
@@ -148,6 +149,18 @@ fn hall_check(
     }
 }
 
+/// True when the Hall check of a fan line of filling `t` contradicts it with the plateau of an
+/// integer filling either side of t (⌊t⌋ or ⌈t⌉). A fraction there sits in that integer
+/// state's localised range, where its own gap cannot show: the dip along it is the edge of
+/// the integer state's plateau, not the fraction.
+pub fn on_neighbouring_integer_plateau(t: Rational, h: &HallCheck) -> bool {
+    let nearest = h.sigma_xy_e2h.round();
+    let t = t.to_f64();
+    h.verdict == "contradicts"
+        && (nearest == t.floor() || nearest == t.ceil())
+        && (h.sigma_xy_e2h - nearest).abs() <= hall_tolerance(nearest)
+}
+
 /// A Brown–Zak field found in the data.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct BrownZakField {
@@ -272,7 +285,6 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
             }
         }
     }
-    let kept = suppress_neighbours(map, &gate, n0, &cands, &ev, &opts.score);
     let sxy = sigma_xy_e2h(map);
     // Hall sign: σ_xy grows with electron density in the convention reported.
     let hall_sign = sxy.as_ref().map(|s| {
@@ -304,6 +316,22 @@ pub fn index_map(map: &Map, opts: &IndexOptions) -> Result<IndexReport> {
         }
         _ => None,
     };
+    // A fraction of the fan on the Hall plateau of an integer state beside it is dropped
+    // before the neighbours are compared (see [`on_neighbouring_integer_plateau`]).
+    if let Some(p) = &plateaus {
+        for e in ev.iter_mut() {
+            let c = &cands[e.candidate];
+            if c.line.family != Family::CompositeFermion || !is_detected(e, &opts.score) {
+                continue;
+            }
+            let (lo, hi) = (e.b_onset_t.unwrap_or(0.0), e.b_max_t.unwrap_or(0.0));
+            let h = hall_check(map, &gate, p, c.t, c.s, n0.unwrap_or(0.0), lo, hi);
+            if on_neighbouring_integer_plateau(c.t, &h) {
+                e.score = 0.0;
+            }
+        }
+    }
+    let kept = suppress_neighbours(map, &gate, n0, &cands, &ev, &opts.score);
     let mut states = Vec::new();
     for &i in &kept {
         let e = &ev[i];
@@ -376,5 +404,51 @@ mod tests {
         )
         .unwrap();
         assert_eq!(agrees.sigma_xy_e2h, 2.01);
+    }
+
+    #[test]
+    fn a_fraction_on_the_plateau_of_an_integer_beside_it_is_told() {
+        let check = |sigma: f64, verdict: &str| HallCheck {
+            sigma_xy_e2h: sigma,
+            expected_e2h: 7.0 / 3.0,
+            plateau_rows: 5,
+            verdict: verdict.into(),
+        };
+        let seven_thirds = Rational::new(7, 3).unwrap();
+        assert!(on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(2.01, "contradicts")
+        ));
+        assert!(on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(2.98, "contradicts")
+        ));
+        // Not an integer beside 7/3, not an integer at all, or no contradiction.
+        assert!(!on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(1.0, "contradicts")
+        ));
+        assert!(!on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(2.6, "contradicts")
+        ));
+        assert!(!on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(f64::NAN, "no_plateau")
+        ));
+        assert!(!on_neighbouring_integer_plateau(
+            seven_thirds,
+            &check(2.33, "agrees")
+        ));
+        // Below zero the integers beside −2/3 are −1 and 0.
+        let minus = Rational::new(-2, 3).unwrap();
+        assert!(on_neighbouring_integer_plateau(
+            minus,
+            &check(-1.02, "contradicts")
+        ));
+        assert!(!on_neighbouring_integer_plateau(
+            minus,
+            &check(-2.0, "contradicts")
+        ));
     }
 }

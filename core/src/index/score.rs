@@ -258,9 +258,12 @@ pub fn score_lines(
         .collect();
     // Second look for the fractional fan lines: near charge neutrality the general Wannier
     // family's many simpler lines cross them in every row, so there only simpler lines that
-    // stand on a ridge in a row keep a fraction from it.
+    // stand on a ridge in a row keep a fraction from it (a Wannier line only where it stands
+    // no lower than the fraction: one crossing the fraction's own ridge stands on it below
+    // its crest).
     let ridges = Array2::from_shape_fn((rows, cands.len()), |(i, k)| first[k].1[i]);
-    let dmax2 = side_limits(&pos, cands, map.x().len(), Some(&ridges));
+    let heights = line_heights(g, &pos);
+    let dmax2 = side_limits(&pos, cands, map.x().len(), Some((&ridges, &heights)));
     first
         .into_par_iter()
         .enumerate()
@@ -274,19 +277,34 @@ pub fn score_lines(
         .collect()
 }
 
+/// The gap strength under every candidate line in every row (NaN outside the map).
+fn line_heights(g: &Array2<f64>, pos: &Array2<f64>) -> Array2<f64> {
+    Array2::from_shape_fn(pos.dim(), |(i, k)| {
+        let f = pos[[i, k]];
+        match g.row(i).as_slice() {
+            Some(row) if f.is_finite() => sample(row, f),
+            _ => f64::NAN,
+        }
+    })
+}
+
 /// Per row and candidate, the largest side offset in columns: half the distance to the
 /// nearest other candidate line of no greater complexity (a coincident line counts, so where
 /// lines converge no row is evidence for any one of them, and a complex candidate inside the
 /// broad plateau of a simpler state has no contrast). With `ridges` (rows × candidates), a
 /// simpler candidate limits another only in the rows where it stands on a ridge itself, or
 /// where it is a fan line (s = 0) closer than two smallest side offsets: where the fan
-/// converges towards zero field no row is evidence for a fraction between its lines.
-/// Rows × candidates.
+/// converges towards zero field no row is evidence for a fraction between its lines. With
+/// `ridges` comes the gap strength under each line (rows × candidates): a simpler line off
+/// the fan (s ≠ 0) limits only where it stands no lower than the candidate. A Wannier line
+/// crossing the candidate's own ridge at a slant stands on that ridge for a few rows, but on
+/// its flank, below the candidate on the crest; a fan line runs along beside the candidate,
+/// and its ridge there is its own. Rows × candidates.
 fn side_limits(
     pos: &Array2<f64>,
     cands: &[Candidate],
     cols: usize,
-    ridges: Option<&Array2<bool>>,
+    ridges: Option<(&Array2<bool>, &Array2<f64>)>,
 ) -> Array2<f64> {
     let rows = pos.nrows();
     let mut dmax = Array2::from_elem((rows, cands.len()), f64::NAN);
@@ -308,7 +326,9 @@ fn side_limits(
                 let limits = |o: usize, d: f64| {
                     cands[o].complexity <= ck
                         && ((unresolved(d) && cands[o].s.is_zero())
-                            || ridges.is_none_or(|r| r[[i, o]]))
+                            || ridges.is_none_or(|(r, h)| {
+                                r[[i, o]] && (cands[o].s.is_zero() || h[[i, o]] >= h[[i, m]])
+                            }))
                 };
                 let mut best = cols as f64;
                 for &(po, o) in members[..r].iter().rev() {
@@ -759,7 +779,8 @@ mod tests {
         assert_eq!(all[[0, 1]], 0.75);
         // The Wannier line shows a ridge in row 0 only.
         let ridges = Array2::from_shape_vec((2, 2), vec![true, false, false, false]).unwrap();
-        let seen = side_limits(&pos, &cands, 100, Some(&ridges));
+        let level = Array2::zeros((2, 2));
+        let seen = side_limits(&pos, &cands, 100, Some((&ridges, &level)));
         assert_eq!(seen[[0, 1]], 0.75);
         assert_eq!(seen[[1, 1]], 50.0);
         // The simpler line is never limited by the fraction.
@@ -778,10 +799,37 @@ mod tests {
         let cands = vec![fan, wannier, fraction];
         let pos = Array2::from_shape_vec((2, 3), vec![10.0, 41.5, 40.0, 10.0, 80.0, 11.5]).unwrap();
         let ridges = Array2::from_elem((2, 3), false);
-        let seen = side_limits(&pos, &cands, 100, Some(&ridges));
+        let level = Array2::zeros((2, 3));
+        let seen = side_limits(&pos, &cands, 100, Some((&ridges, &level)));
         // Unresolved from the fan line: below the smallest side offset, so no evidence.
         assert!(seen[[1, 2]] < MIN_SIDE_COLUMNS, "{}", seen[[1, 2]]);
         // A Wannier line off its ridge does not limit it, nor does the far fan line.
         assert_eq!(seen[[0, 2]], 50.0);
+    }
+
+    #[test]
+    fn a_wannier_line_below_a_fraction_on_its_crest_does_not_limit_it_but_a_fan_line_does() {
+        // One row: the fraction ν = 1/3 on the crest (strength 30), a Wannier line and the fan's
+        // ν = 0 each 1.5 columns away on a ridge, lower (20).
+        let wannier = cand(Family::Wannier, 1, 1);
+        let fan = cand(Family::BrokenSymmetry, 0, 0);
+        let fraction = one_third();
+        let cands = vec![wannier, fraction.clone()];
+        let pos = Array2::from_shape_vec((1, 2), vec![10.0, 11.5]).unwrap();
+        let ridges = Array2::from_elem((1, 2), true);
+        let lower = Array2::from_shape_vec((1, 2), vec![20.0, 30.0]).unwrap();
+        let seen = side_limits(&pos, &cands, 100, Some((&ridges, &lower)));
+        assert_eq!(seen[[0, 1]], 50.0);
+        // Standing as high as the fraction, the Wannier line does limit it.
+        let level = Array2::from_shape_vec((1, 2), vec![30.0, 30.0]).unwrap();
+        let seen = side_limits(&pos, &cands, 100, Some((&ridges, &level)));
+        assert_eq!(seen[[0, 1]], 0.75);
+        // A fan line on a ridge limits the fraction even below it.
+        let pos = Array2::from_shape_vec((1, 2), vec![8.5, 11.5]).unwrap();
+        let cands = vec![fan, fraction];
+        let seen = side_limits(&pos, &cands, 100, Some((&ridges, &lower)));
+        assert_eq!(seen[[0, 1]], 1.5);
+        // Without ridges every simpler line limits.
+        assert_eq!(side_limits(&pos, &cands, 100, None)[[0, 1]], 1.5);
     }
 }
