@@ -497,11 +497,11 @@ fn brown_zak_fields_are_found_as_horizontal_features() {
 
 #[test]
 fn precision_recall_table_over_seeds_and_devices() {
-    // The table of the report: every varied seed of both devices. The monolayer meets the
-    // done-criteria (P ≥ 0.9 on every seed, mean R ≥ 0.9). The moiré device is held to what
-    // it reaches now — precision at the criterion on every seed, recall about 0.87 — and to the
-    // calibration criteria (α within 2 %, V_CNP within 0.3 V, n₀ within 3 %) on every one of its
-    // five seeds.
+    // The table of the report: every varied seed of both devices. Both meet the done-criteria
+    // (P ≥ 0.9 on every seed, mean P and mean R ≥ 0.9 over the seeds), each held a little
+    // above them where it reaches further (mean P ≥ 0.95, every seed's R ≥ 0.8 or 0.85); the
+    // moiré device also meets the calibration criteria (α within 2 %, V_CNP within 0.3 V,
+    // n₀ within 3 %) on every one of its five seeds.
     eprintln!("device seed precision recall Δα/α ΔV_CNP(V) Δn₀/n₀");
     let mean = |v: &[f64]| v.iter().sum::<f64>() / v.len() as f64;
     let (mut wren_p, mut wren_r) = (Vec::new(), Vec::new());
@@ -544,12 +544,13 @@ fn precision_recall_table_over_seeds_and_devices() {
             calibrated += 1;
         }
         assert!(p >= 0.9, "tern seed {seed}: precision {p:.2}");
-        assert!(rc >= 0.75, "tern seed {seed}: recall {rc:.2}");
+        assert!(rc >= 0.85, "tern seed {seed}: recall {rc:.2}");
         tern_p.push(p);
         tern_r.push(rc);
     }
     assert!(mean(&tern_p) >= 0.95, "tern precision {tern_p:?}");
-    assert!(mean(&tern_r) >= 0.85, "tern recall {tern_r:?}");
+    // Done-criterion.
+    assert!(mean(&tern_r) >= 0.9, "tern recall {tern_r:?}");
     assert!(
         calibrated == 5,
         "calibration criteria met on {calibrated} of 5 moiré seeds"

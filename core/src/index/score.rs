@@ -37,7 +37,7 @@ pub struct ScoreOptions {
     /// A candidate of complexity c must be seen over max(1, c × this) times the smallest
     /// run: the complex families hold many more lines, so a chance alignment with a few rows
     /// of some ridge is likelier among them and they need longer evidence (the fractional
-    /// fan excepted, see [`rows_scale`]).
+    /// fan and the degenerate integer sequence excepted, see [`rows_scale`]).
     pub rows_per_complexity: f64,
     /// Two detections closer than this many columns on average over their common rows explain
     /// the same ridge.
@@ -499,11 +499,14 @@ fn line_evidence(
 }
 
 /// How many times the smallest run a candidate must be seen over: its complexity ×
-/// [`ScoreOptions::rows_per_complexity`] (at least 1), except for the fractional fan, which
-/// needs only the smallest run: its family holds a few dozen lines (little look-elsewhere
-/// effect), and its states open only at the highest fields, where a map holds few rows.
+/// [`ScoreOptions::rows_per_complexity`] (at least 1), except for two small families, which
+/// need only the smallest run. Each holds a few dozen lines (little look-elsewhere effect),
+/// and each is seen where the map holds few rows for it: the fractional fan opens only at the
+/// highest fields, and a high filling of the stack's degenerate sequence (ν = ±54 … ±62 of a
+/// fourfold sequence, say) lies inside the gate range only over the lowest fields, where its
+/// line leaves the map after a few rows.
 pub fn rows_scale(cand: &Candidate, opts: &ScoreOptions) -> f64 {
-    if cand.line.family == Family::CompositeFermion {
+    if matches!(cand.line.family, Family::CompositeFermion | Family::Integer) {
         1.0
     } else {
         (opts.rows_per_complexity * cand.complexity).max(1.0)
@@ -608,6 +611,22 @@ mod tests {
     fn cand(family: Family, t: i64, s: i64) -> Candidate {
         let line = Line::gap(family, "test", Rational::integer(t), Rational::integer(s));
         Candidate::from_line(line).expect("a gap line")
+    }
+
+    #[test]
+    fn a_high_filling_of_the_degenerate_sequence_needs_only_the_smallest_run() {
+        let o = ScoreOptions::default();
+        // ν = 62 of the fourfold sequence: complexity above 2, yet one smallest run.
+        let high = cand(Family::Integer, 62, 0);
+        assert!(o.rows_per_complexity * high.complexity > 1.0);
+        assert_eq!(rows_scale(&high, &o), 1.0);
+        // A symmetry-broken filling as complex still needs its longer run.
+        let broken = cand(Family::BrokenSymmetry, 61, 0);
+        assert!(rows_scale(&broken, &o) > 1.0, "{}", rows_scale(&broken, &o));
+        assert_eq!(
+            rows_scale(&broken, &o),
+            o.rows_per_complexity * broken.complexity
+        );
     }
 
     /// Gate −10…10 V in 0.05 V steps, field 0…12 T over 121 rows; α = 10¹⁵ m⁻²V⁻¹, V_CNP = 0.
