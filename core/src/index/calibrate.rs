@@ -668,27 +668,32 @@ fn fit_fan(
     })
 }
 
-/// Choose among the estimates: the quantum Hall fit when found, else the Hall slope, else
-/// geometry (V_CNP then from the largest low-field R_xx).
+/// The order in which [`choose`] prefers the methods: the quantum Hall fit, the Hall slope,
+/// geometry.
+pub const FAN_FIRST: [CalibrationMethod; 3] = [
+    CalibrationMethod::QuantumHall,
+    CalibrationMethod::HallSlope,
+    CalibrationMethod::Geometry,
+];
+
+/// Choose among the estimates the first found in `order` (V_CNP from the largest low-field
+/// R_xx when the chosen one has none).
 pub fn choose(
     map: &Map,
     estimates: Vec<GateEstimate>,
     mut notes: Vec<String>,
+    order: &[CalibrationMethod],
 ) -> Result<Calibration> {
-    let pick = [
-        CalibrationMethod::QuantumHall,
-        CalibrationMethod::HallSlope,
-        CalibrationMethod::Geometry,
-    ]
-    .iter()
-    .find_map(|m| estimates.iter().find(|e| e.method == *m).copied())
-    .ok_or_else(|| {
-        Error::MapRequirement(
-            "no calibration could be found: the map shows neither a quantum Hall fan nor a \
+    let pick = order
+        .iter()
+        .find_map(|m| estimates.iter().find(|e| e.method == *m).copied())
+        .ok_or_else(|| {
+            Error::MapRequirement(
+                "no calibration could be found: the map shows neither a quantum Hall fan nor a \
                  low-field Hall slope; give --calibration or the dielectric"
-                .into(),
-        )
-    })?;
+                    .into(),
+            )
+        })?;
     let (v, sv) = match (pick.v_cnp_v, pick.v_cnp_sigma_v) {
         (Some(v), Some(s)) => (v, s),
         _ => {
@@ -976,9 +981,21 @@ pub fn refine_on_main_cone(
     )
 }
 
+/// Largest relative uncertainty of a Hall-slope lever arm that may referee the fan's scale:
+/// a 30 % disagreement is then at least three of its standard deviations. (A map whose field
+/// starts high or whose gate range is short leaves only a few classical-range points.)
+pub const REFEREE_MAX_RELATIVE_SIGMA: f64 = 0.1;
+
+/// Whether the Hall-slope estimate `a` is precise enough to referee the fan's scale.
+fn can_referee(a: &GateEstimate) -> bool {
+    a.alpha_sigma_cm2_per_v.is_finite()
+        && a.alpha_sigma_cm2_per_v <= REFEREE_MAX_RELATIVE_SIGMA * a.alpha_cm2_per_v.abs()
+}
+
 /// Methods (a) and (b) together: (b) alone first, (a) near its V_CNP, and (b) again with (a)
-/// as the referee of the scale when they disagree by more than 30 %; (c) when a dielectric is
-/// given. Returns the chosen calibration with every estimate.
+/// as the referee of the scale when they disagree by more than 30 % and (a) is precise enough
+/// to tell ([`REFEREE_MAX_RELATIVE_SIGMA`]); (c) when a dielectric is given. Returns the
+/// chosen calibration with every estimate.
 pub fn calibrate_map(
     map: &Map,
     minima: &[MinimumPoint],
@@ -989,7 +1006,14 @@ pub fn calibrate_map(
     let mut b = from_quantum_hall(map, minima, stack, None, &mut notes);
     let a = from_hall_slope(map, b.and_then(|e| e.v_cnp_v));
     if let (Some(ea), Some(eb)) = (a, b) {
-        if (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3 {
+        let apart = (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3;
+        if apart && !can_referee(&ea) {
+            notes.push(format!(
+                "the low-field Hall slope (α = {:.4e} ± {:.1e} cm⁻²/V from {} points) is too \
+                 uncertain to check the quantum Hall fan's scale (α = {:.4e} cm⁻²/V)",
+                ea.alpha_cm2_per_v, ea.alpha_sigma_cm2_per_v, ea.points, eb.alpha_cm2_per_v
+            ));
+        } else if apart {
             b = from_quantum_hall(map, minima, stack, Some(&ea), &mut notes);
             if let Some(eb) = b {
                 if (eb.alpha_cm2_per_v / ea.alpha_cm2_per_v - 1.0).abs() > 0.3 {
@@ -1044,9 +1068,28 @@ pub fn calibrate_map(
             ));
         }
     }
+    // In a moiré device the fan's scale rests on assigning each minimum a main-fan filling,
+    // and the satellite fans, the symmetry-broken states and the Hofstadter minigaps crowd the
+    // main cone with minima that a fan fit can take for its own: a precise classical Hall slope
+    // measures the density directly and is taken first.
+    let order = match a {
+        Some(ea) if stack.is_moire() && can_referee(&ea) => {
+            notes.push(
+                "moiré device: the low-field Hall slope is chosen over the quantum Hall fan, \
+                 whose filling assignments the satellite and Hofstadter minima can bias"
+                    .into(),
+            );
+            [
+                CalibrationMethod::HallSlope,
+                CalibrationMethod::QuantumHall,
+                CalibrationMethod::Geometry,
+            ]
+        }
+        _ => FAN_FIRST,
+    };
     let mut est: Vec<GateEstimate> = [b, a].into_iter().flatten().collect();
     if let Some(d) = dielectric {
         est.push(from_geometry(d)?);
     }
-    choose(map, est, notes)
+    choose(map, est, notes, &order)
 }
