@@ -563,7 +563,7 @@ fn precision_recall_table_over_seeds_and_devices() {
         let (p, rc, _, _) = precision_recall(DeviceName::Tern, seed, Stack::MonolayerMoire);
         eprintln!("tern {seed} {p:.2} {rc:.2} (wider set)");
         assert!(p >= 0.85, "tern seed {seed}: precision {p:.2}");
-        assert!(rc >= 0.5, "tern seed {seed}: recall {rc:.2}");
+        assert!(rc >= 0.75, "tern seed {seed}: recall {rc:.2}");
         all_p.push(p);
         all_r.push(rc);
     }
@@ -572,8 +572,8 @@ fn precision_recall_table_over_seeds_and_devices() {
         mean(&all_p),
         mean(&all_r)
     );
-    assert!(mean(&all_p) >= 0.93, "tern precision {all_p:?}");
-    assert!(mean(&all_r) >= 0.83, "tern recall {all_r:?}");
+    assert!(mean(&all_p) >= 0.94, "tern precision {all_p:?}");
+    assert!(mean(&all_r) >= 0.86, "tern recall {all_r:?}");
 }
 
 #[test]
@@ -645,11 +645,12 @@ fn calibration_notes_are_said_once() {
 
 #[test]
 fn moire_calibration_meets_the_criteria_on_fifteen_seeds() {
-    // Criterion of the issue: α within 2 %, V_CNP within 0.3 V (here held to 0.05 V), on
+    // Criteria of the issue: α within 2 %, V_CNP within 0.3 V (here held to 0.05 V), n₀
+    // within 3 %, on
     // varied seeds well beyond the five of the precision/recall table. In a moiré device the
     // main cone's minima include satellite, symmetry-broken and Hofstadter states that a fan
     // fit can take for its own, so a precise low-field Hall slope is chosen.
-    use fanmark_core::index::calibrate::{calibrate_map, CalibrationMethod};
+    use fanmark_core::index::calibrate::{calibrate_map, moire_density, CalibrationMethod};
     use fanmark_core::index::features::{find_minima, gap_map, GapMapOptions};
     for seed in 1..=15 {
         let s = generate(&SynthConfig::varied(DeviceName::Tern, seed)).unwrap();
@@ -664,6 +665,21 @@ fn moire_calibration_meets_the_criteria_on_fifteen_seeds() {
         assert_eq!(c.method, CalibrationMethod::HallSlope, "seed {seed}");
         // Both estimates are reported side by side.
         assert!(c.methods.len() >= 2, "seed {seed}: {:?}", c.methods);
+        // n₀ within 3 % (criterion of the issue), found on every seed.
+        let m = moire_density(
+            &map,
+            &minima,
+            &c.gate(),
+            Stack::MonolayerMoire,
+            fanmark_core::moire::HBN_MISMATCH_DEFAULT,
+        )
+        .unwrap_or_else(|| panic!("seed {seed}: no n₀"));
+        let dn = m.n0_cm2 / s.truth.n0_cm2.unwrap() - 1.0;
+        assert!(
+            dn.abs() < 0.03,
+            "seed {seed}: n₀ off by {:.2} %",
+            100.0 * dn
+        );
     }
 }
 

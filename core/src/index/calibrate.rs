@@ -830,6 +830,11 @@ fn low_field_peak(map: &Map) -> f64 {
     }
 }
 
+/// How far above the chance level of the n₀ scan, in robust standard deviations, the best
+/// n₀ must score to be taken as a superlattice (synthetic moiré maps score 6–15, maps of
+/// devices without one about 1).
+pub const SUPERLATTICE_MIN_Z: f64 = 4.0;
+
 /// The moiré density from the satellite fans and band insulators at s = ±4: a search over n₀
 /// between `n0_range_m2`, then least squares over the minima on those lines.
 pub fn moire_density(
@@ -895,8 +900,13 @@ pub fn moire_density(
             best = (sc, n0);
         }
     }
-    // A superlattice must stand out of the chance coincidences of the scan.
-    if best.0 < 2.0 * median(all.iter().copied()) {
+    // A superlattice must stand out of the chance coincidences of the scan: its score at
+    // least SUPERLATTICE_MIN_Z robust standard deviations (1.4826 × the median absolute
+    // deviation, the normal-equivalent scale) above the scan's median. (A ratio to the median
+    // would not do: a dense map's many minima raise the chance level with the peak.)
+    let level = median(all.iter().copied());
+    let spread = 1.4826 * median(all.iter().map(|v| (v - level).abs()));
+    if !(best.0 - level >= SUPERLATTICE_MIN_Z * spread) || !(spread > 0.0) {
         return None;
     }
     let mut n0 = best.1;
