@@ -676,6 +676,14 @@ pub const FAN_FIRST: [CalibrationMethod; 3] = [
     CalibrationMethod::Geometry,
 ];
 
+/// The order for a moiré device with a precise Hall slope: the Hall slope, the quantum Hall
+/// fit, geometry.
+pub const HALL_FIRST: [CalibrationMethod; 3] = [
+    CalibrationMethod::HallSlope,
+    CalibrationMethod::QuantumHall,
+    CalibrationMethod::Geometry,
+];
+
 /// Choose among the estimates the first found in `order` (V_CNP from the largest low-field
 /// R_xx when the chosen one has none).
 pub fn choose(
@@ -1084,16 +1092,14 @@ pub fn calibrate_map(
     // measures the density directly and is taken first.
     let order = match a {
         Some(ea) if stack.is_moire() && can_referee(&ea) => {
-            notes.push(
-                "moiré device: the low-field Hall slope is chosen over the quantum Hall fan, \
-                 whose filling assignments the satellite and Hofstadter minima can bias"
-                    .into(),
-            );
-            [
-                CalibrationMethod::HallSlope,
-                CalibrationMethod::QuantumHall,
-                CalibrationMethod::Geometry,
-            ]
+            if b.is_some() {
+                notes.push(
+                    "moiré device: the low-field Hall slope is chosen over the quantum Hall \
+                     fan, whose filling assignments the satellite and Hofstadter minima can bias"
+                        .into(),
+                );
+            }
+            HALL_FIRST
         }
         _ => FAN_FIRST,
     };
