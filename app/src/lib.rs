@@ -8,5 +8,6 @@
 pub mod cmd;
 pub mod figure;
 pub mod progress;
+pub mod rows;
 pub mod timing;
 pub mod viewer;

@@ -5,8 +5,8 @@
 //! data's own resolution.
 
 use super::scene::{ColorScale, HeatMap, Resample, ValueRange};
+use crate::rows::par_rows_vec;
 use fanmark_core::{Error, Result};
-use rayon::prelude::*;
 
 /// A resolved value → colour mapping.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -51,17 +51,52 @@ impl ColorMapping {
     pub fn index(&self, v: f64) -> Option<u8> {
         self.position(v).map(table_index)
     }
+}
 
-    /// [`Self::index`] with the scale's ends transformed once, for use per pixel (same values).
-    pub fn indexer(&self) -> impl Fn(f64) -> Option<u8> + Sync + '_ {
-        let (a, b) = (forward(self.scale, self.lo), forward(self.scale, self.hi));
-        move |v| {
-            let f = forward(self.scale, v);
-            if !f.is_finite() {
-                return None;
-            }
-            Some(table_index(((f - a) / (b - a)).clamp(0.0, 1.0)))
+/// Values → opaque RGBA pixels through a colour table, for use per pixel: the colour of
+/// [`ColorMapping::index`] with the scale's ends transformed once, and the missing colour where
+/// that gives no index (or an index past the table). The same colours, without a branch on the
+/// value in the linear scale.
+struct Painter {
+    /// Transformed low end and span of the scale.
+    a: f64,
+    span: f64,
+    scale: ColorScale,
+    /// The table's colours (opaque), then the missing colour at [`Painter::MISSING`].
+    table: [[u8; 4]; 257],
+}
+
+impl Painter {
+    /// Index of the missing colour in the table.
+    const MISSING: usize = 256;
+
+    fn new(map: &ColorMapping, colors: &[[u8; 3]], missing: [u8; 4]) -> Painter {
+        let (a, b) = (forward(map.scale, map.lo), forward(map.scale, map.hi));
+        let mut table = [missing; 257];
+        for (t, c) in table.iter_mut().zip(colors.iter().take(256)) {
+            *t = [c[0], c[1], c[2], 255];
         }
+        Painter {
+            a,
+            span: b - a,
+            scale: map.scale,
+            table,
+        }
+    }
+
+    /// The pixel of value `v`.
+    #[inline(always)]
+    fn paint(&self, v: f64) -> [u8; 4] {
+        let f = match self.scale {
+            ColorScale::Linear => v,
+            s => forward(s, v),
+        };
+        // As `table_index` of the clamped position; a NaN position gives 0 here and is sent
+        // to the missing colour below with the infinities.
+        let x = ((f - self.a) / self.span).clamp(0.0, 1.0) * 255.0;
+        let i = if x < 0.5 { 0 } else { (x + 0.5) as usize };
+        let i = if f.is_finite() { i } else { Self::MISSING };
+        self.table[i.min(Self::MISSING)]
     }
 }
 
@@ -257,80 +292,77 @@ pub fn render_rgba(
     height: u32,
 ) -> Vec<u8> {
     let (w, ht) = (width as usize, height as usize);
-    let mut out = vec![0u8; w * ht * 4];
     if w == 0 || ht == 0 {
-        return out;
+        return Vec::new();
     }
     let at = |e: (f64, f64), n: usize, i: usize| e.0 + (i as f64 + 0.5) / n as f64 * (e.1 - e.0);
     let xs = axis_samples(&h.x, (0..w).map(|i| at(x_edges, w, i)), h.resample);
     let ys = axis_samples(&h.y, (0..ht).map(|i| at(y_edges, ht, i)), h.resample);
     let missing = h.missing.map(|c| [c[0], c[1], c[2], 255]).unwrap_or([0; 4]);
-    let index = map.indexer();
-    // The colour of each table index, opaque, looked up once per pixel.
-    let table: Vec<[u8; 4]> = h.colors.iter().map(|c| [c[0], c[1], c[2], 255]).collect();
-    let colour = |value: f64| match index(value) {
-        Some(i) => table.get(i as usize).copied().unwrap_or(missing),
-        None => missing,
-    };
+    let painter = Painter::new(map, &h.colors, missing);
+    let colour = |value: f64| painter.paint(value);
     // Row-major values, so that each output row reads its source rows as slices.
     let v = h.values.as_standard_layout();
     let Some(flat) = v.as_slice() else {
-        return out;
+        return vec![0; w * ht * 4];
     };
     let nx = v.dim().1;
-    match h.resample {
+    // Pixels outside the data are transparent.
+    const CLEAR: [u8; 4] = [0; 4];
+    let pixels = match h.resample {
         Resample::Nearest => {
             // Nearest: both bracketing points are the nearest one; its column is the same for
             // every row.
             let cols: Vec<Option<usize>> = xs.iter().map(|x| x.map(|(xa, _, _)| xa)).collect();
-            out.par_chunks_mut(w * 4)
-                .zip(ys.par_iter())
-                .for_each(|(row, ysample)| {
-                    let Some((ya, _, _)) = *ysample else {
-                        return;
-                    };
-                    let src = &flat[ya * nx..(ya + 1) * nx];
-                    for (px, col) in row.chunks_exact_mut(4).zip(&cols) {
-                        if let Some(c) = *col {
-                            px.copy_from_slice(&colour(src[c]));
-                        }
-                    }
-                });
+            // When every pixel has a column and they run on one by one (the samples are at
+            // the pixels, as in the viewer), a row is a straight run of its source row.
+            let first = cols.first().copied().flatten();
+            let run = first.filter(|&c0| {
+                c0 + w <= nx && cols.iter().enumerate().all(|(i, c)| *c == Some(c0 + i))
+            });
+            par_rows_vec(ht, w, CLEAR, |r, out| {
+                let Some((ya, _, _)) = ys[r] else {
+                    return;
+                };
+                let src = &flat[ya * nx..(ya + 1) * nx];
+                if let Some(c0) = run {
+                    out.extend(src[c0..c0 + w].iter().map(|&v| colour(v)));
+                    return;
+                }
+                out.extend(cols.iter().map(|col| col.map_or(CLEAR, |c| colour(src[c]))));
+            })
         }
-        Resample::Bilinear => {
-            out.par_chunks_mut(w * 4)
-                .zip(ys.par_iter())
-                .for_each(|(row, ysample)| {
-                    let Some((ya, yb, wy)) = *ysample else {
-                        return;
-                    };
-                    let (ra, rb) = (&flat[ya * nx..(ya + 1) * nx], &flat[yb * nx..(yb + 1) * nx]);
-                    for (px, xsample) in row.chunks_exact_mut(4).zip(&xs) {
-                        let Some((xa, xb, wx)) = *xsample else {
-                            continue;
-                        };
-                        let q = [
-                            (ra[xa], (1.0 - wy) * (1.0 - wx)),
-                            (ra[xb], (1.0 - wy) * wx),
-                            (rb[xa], wy * (1.0 - wx)),
-                            (rb[xb], wy * wx),
-                        ];
-                        let value = if q.iter().all(|(val, _)| val.is_finite()) {
-                            q.iter().map(|(val, wt)| val * wt).sum()
-                        } else {
-                            // Near missing data: the heaviest finite neighbour.
-                            q.iter()
-                                .filter(|(val, _)| val.is_finite())
-                                .max_by(|a, b| a.1.total_cmp(&b.1))
-                                .map(|(val, _)| *val)
-                                .unwrap_or(f64::NAN)
-                        };
-                        px.copy_from_slice(&colour(value));
-                    }
-                });
-        }
-    }
-    out
+        Resample::Bilinear => par_rows_vec(ht, w, CLEAR, |r, out| {
+            let Some((ya, yb, wy)) = ys[r] else {
+                return;
+            };
+            let (ra, rb) = (&flat[ya * nx..(ya + 1) * nx], &flat[yb * nx..(yb + 1) * nx]);
+            for xsample in &xs {
+                let Some((xa, xb, wx)) = *xsample else {
+                    out.push(CLEAR);
+                    continue;
+                };
+                let q = [
+                    (ra[xa], (1.0 - wy) * (1.0 - wx)),
+                    (ra[xb], (1.0 - wy) * wx),
+                    (rb[xa], wy * (1.0 - wx)),
+                    (rb[xb], wy * wx),
+                ];
+                let value = if q.iter().all(|(val, _)| val.is_finite()) {
+                    q.iter().map(|(val, wt)| val * wt).sum()
+                } else {
+                    // Near missing data: the heaviest finite neighbour.
+                    q.iter()
+                        .filter(|(val, _)| val.is_finite())
+                        .max_by(|a, b| a.1.total_cmp(&b.1))
+                        .map(|(val, _)| *val)
+                        .unwrap_or(f64::NAN)
+                };
+                out.push(colour(value));
+            }
+        }),
+    };
+    pixels.into_flattened()
 }
 
 /// The data window covering whole cells of the points visible in `range` (from, to) along
@@ -408,6 +440,51 @@ mod tests {
         assert!((p + m - 1.0).abs() < 1e-12);
         // ln(1+10)/ln(1+100) of the half range above the middle.
         assert!((p - (0.5 + 0.5 * 11f64.ln() / 101f64.ln())).abs() < 1e-12);
+    }
+
+    #[test]
+    fn the_per_pixel_painter_gives_the_colour_of_the_mapping_index() {
+        // A 200-colour table (indices past it are missing) on every scale, over values that
+        // hit both ends, the half-way points of the table, NaN, the infinities and, on the
+        // log scale, values it cannot show.
+        let colors: Vec<[u8; 3]> = (0..200).map(|i| [i as u8, 255 - i as u8, 7]).collect();
+        let missing = [1, 2, 3, 255];
+        let scales = [
+            ColorScale::Linear,
+            ColorScale::Log,
+            ColorScale::SymLog {
+                linear_threshold: 0.3,
+            },
+        ];
+        for scale in scales {
+            let m = ColorMapping {
+                lo: 0.01,
+                hi: 7.5,
+                scale,
+            };
+            let p = Painter::new(&m, &colors, missing);
+            let mut values: Vec<f64> = (-400..=2400).map(|k| k as f64 * 0.0037).collect();
+            values.extend((0..=255).map(|k| 0.01 + (k as f64 + 0.5) / 255.0 * 7.49));
+            values.extend([
+                f64::NAN,
+                f64::INFINITY,
+                f64::NEG_INFINITY,
+                0.0,
+                -1.0,
+                0.01,
+                7.5,
+            ]);
+            for v in values {
+                let want = match m.index(v) {
+                    Some(i) if (i as usize) < colors.len() => {
+                        let c = colors[i as usize];
+                        [c[0], c[1], c[2], 255]
+                    }
+                    _ => missing,
+                };
+                assert_eq!(p.paint(v), want, "{scale:?} at {v}");
+            }
+        }
     }
 
     #[test]

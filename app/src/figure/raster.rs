@@ -9,6 +9,7 @@ use super::layout::layout;
 use super::scene::{Figure, HeatMap, Panel};
 use super::stroke::{draw_stroke, DeviceRect, StrokeStyle};
 use super::text::{glyph, TextBlock};
+use crate::rows::par_rows_vec;
 use fanmark_core::{Error, Result};
 use rayon::prelude::*;
 use std::rc::Rc;
@@ -144,13 +145,35 @@ fn draw_list_onto_banded(
     draw_in_bands(pm, &run, scale, band_rows, direct);
 }
 
-/// Fill the top-left `w`×`h` pixels of `pm` (as far as it reaches) opaque white.
+/// Fill the top-left `w`×`h` pixels of `pm` (as far as it reaches) opaque white, rows in
+/// parallel.
 fn fill_white(pm: &mut Pixmap, w: u32, h: u32) {
     let stride = pm.width() as usize * 4;
     let n = w.min(pm.width()) as usize * 4;
-    for row in pm.data_mut().chunks_exact_mut(stride).take(h as usize) {
-        row[..n].fill(255);
-    }
+    let rows = (h as usize).min(pm.height() as usize);
+    pm.data_mut()[..rows * stride]
+        .par_chunks_mut(stride)
+        .for_each(|row| row[..n].fill(255));
+}
+
+/// A `w`×`h` pixmap with every pixel `rgba` (premultiplied), written in parallel with no
+/// zeroing pass first; `None` for an empty or oversized size.
+pub fn filled_pixmap(w: u32, h: u32, rgba: [u8; 4]) -> Option<Pixmap> {
+    let size = tiny_skia::IntSize::from_wh(w, h)?;
+    let px = par_rows_vec(h as usize, w as usize, rgba, |_, _| {});
+    Pixmap::from_vec(px.into_flattened(), size)
+}
+
+/// A copy of `pm`, its rows copied in parallel.
+pub fn copy_pixmap(pm: &Pixmap) -> Pixmap {
+    let (w, h) = (pm.width() as usize, pm.height() as usize);
+    let data = pm.data();
+    let px = par_rows_vec(h, w * 4, 0u8, |r, out| {
+        out.push_slice(&data[r * w * 4..(r + 1) * w * 4]);
+    });
+    tiny_skia::IntSize::from_wh(pm.width(), pm.height())
+        .and_then(|size| Pixmap::from_vec(px, size))
+        .unwrap_or_else(|| pm.clone())
 }
 
 /// Rows of the page in each band when vector items are drawn in parallel. Fixed, so the

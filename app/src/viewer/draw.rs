@@ -15,7 +15,9 @@ use crate::figure::draw::Item;
 use crate::figure::geom::Rect;
 use crate::figure::heatmap::ColorMapping;
 use crate::figure::layout::{data_items, is_plot_frame, label_items, layout};
-use crate::figure::raster::{draw_item, draw_list_onto, heatmap_layer, pixel_rect};
+use crate::figure::raster::{
+    copy_pixmap, draw_item, draw_list_onto, filled_pixmap, heatmap_layer, pixel_rect,
+};
 use crate::figure::scene::{
     AxisSpec, ColorBar, Figure, HeatMap, LineStyle, MarkerShape, MarkerStyle, Markers, Panel,
     Polyline, TextLabel, ValueRange,
@@ -799,7 +801,7 @@ impl Renderer {
         let Some(base) = &self.base else {
             unreachable!("the base layer was just stored")
         };
-        let mut pm = base.pixmap.clone();
+        let mut pm = copy_pixmap(&base.pixmap);
         match (motion, &base.plot) {
             (Some(Motion::Shift(d)), Some(g)) => {
                 shift_region(&mut pm, &base.pixmap, g.pixels, d, MISSING_RGBA);
@@ -933,7 +935,7 @@ impl Renderer {
             *cache = Some((heat_key.clone(), (pw, ph), Rc::clone(&img)));
             img
         };
-        let mut pixmap = Pixmap::new(w.max(1), h.max(1)).ok_or_else(no_frame)?;
+        let mut pixmap = filled_pixmap(w.max(1), h.max(1), [255; 4]).ok_or_else(no_frame)?;
         draw_list_onto(&mut pixmap, &c.fig, &c.list, &mut source);
         fill_outside_page(&mut pixmap, c.fig.pixel_size());
         Ok(Base {

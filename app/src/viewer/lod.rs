@@ -4,6 +4,7 @@
 //! small one.
 
 use super::data::bilinear;
+use crate::rows::par_rows_vec;
 use ndarray::Array2;
 use rayon::prelude::*;
 
@@ -141,7 +142,6 @@ impl Pyramid {
         let off = (f - 1.0) / 2.0;
         let (ny, nx) = level.values.dim();
         let width = cols.len();
-        let mut out = vec![f64::NAN; width * rows.len()];
         let Some(flat) = level.values.as_slice() else {
             // Not in row-major order (never built so here): one sample at a time.
             let at = |c: usize, r: usize| Some((cols[c]?, rows[r]?));
@@ -165,21 +165,18 @@ impl Pyramid {
             .map(|&p| cell(p, nx).unwrap_or((0, 0, f64::NAN)))
             .collect();
         let ycells: Vec<Option<(usize, usize, f64)>> = rows.iter().map(|&p| cell(p, ny)).collect();
-        out.par_chunks_mut(width.max(1))
-            .zip(ycells.par_iter())
-            .for_each(|(row, yc)| {
-                let Some((i0, i1, ty)) = *yc else {
-                    return;
-                };
-                let (r0, r1) = (&flat[i0 * nx..(i0 + 1) * nx], &flat[i1 * nx..(i1 + 1) * nx]);
-                for (out, &(j0, j1, tx)) in row.iter_mut().zip(&xcells) {
-                    let (v00, v01, v10, v11) = (r0[j0], r0[j1], r1[j0], r1[j1]);
-                    let top = v00 + (v01 - v00) * tx;
-                    let bot = v10 + (v11 - v10) * tx;
-                    *out = (top + (bot - top) * ty) * factor;
-                }
-            });
-        out
+        par_rows_vec(rows.len(), width, f64::NAN, |r, out| {
+            let Some((i0, i1, ty)) = ycells[r] else {
+                return;
+            };
+            let (r0, r1) = (&flat[i0 * nx..(i0 + 1) * nx], &flat[i1 * nx..(i1 + 1) * nx]);
+            out.extend(xcells.iter().map(|&(j0, j1, tx)| {
+                let (v00, v01, v10, v11) = (r0[j0], r0[j1], r1[j0], r1[j1]);
+                let top = v00 + (v01 - v00) * tx;
+                let bot = v10 + (v11 - v10) * tx;
+                (top + (bot - top) * ty) * factor
+            }));
+        })
     }
 }
 
