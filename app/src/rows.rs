@@ -34,19 +34,6 @@ impl<T> RowWriter<'_, T> {
         self.written = n;
     }
 
-    /// Write the items of `values` next, as far as the row has room.
-    #[inline(always)]
-    pub fn push_slice(&mut self, values: &[T])
-    where
-        T: Copy,
-    {
-        let end = (self.written + values.len()).min(self.slots.len());
-        for (slot, v) in self.slots[self.written..end].iter_mut().zip(values) {
-            slot.write(*v);
-        }
-        self.written = end;
-    }
-
     /// Write `value` into every remaining item of the row.
     pub fn fill_rest(&mut self, value: T)
     where
@@ -82,8 +69,7 @@ pub fn par_rows_vec<T: Copy + Send + Sync>(
     // slots was initialised above: the slots are split into disjoint chunks of `width` (the
     // last possibly shorter) covering all `n` when `width > 0`, and every chunk's writer leaves
     // `written == slots.len()` — `push` initialises slot `written` before counting it,
-    // `push_slice` initialises slots `written..end` before setting `written = end`, `extend`
-    // initialises each slot after `written` before counting it, and
+    // `extend` initialises each slot after `written` before counting it, and
     // `fill_rest` pushes until the count reaches the chunk's length. When `width == 0`, `n` is 0.
     // `T: Copy` has no drop glue, so nothing could leak or double-drop if a row panicked.
     unsafe { out.set_len(n) };
@@ -111,8 +97,8 @@ mod tests {
         }
         // Slices: the row takes what fits.
         let v = par_rows_vec(3, 4, 9u8, |r, w| {
-            w.push_slice(&[1, 2, 3][..r + 1]);
-            w.push_slice(&[7, 7]);
+            w.extend([1, 2, 3][..r + 1].iter().copied());
+            w.extend([7, 7]);
         });
         assert_eq!(v, [1, 7, 7, 9, 1, 2, 7, 7, 1, 2, 3, 7]);
         // Iterators: the row takes what fits, then pushes go on after them.

@@ -169,7 +169,7 @@ pub fn copy_pixmap(pm: &Pixmap) -> Pixmap {
     let (w, h) = (pm.width() as usize, pm.height() as usize);
     let data = pm.data();
     let px = par_rows_vec(h, w * 4, 0u8, |r, out| {
-        out.push_slice(&data[r * w * 4..(r + 1) * w * 4]);
+        out.extend(data[r * w * 4..(r + 1) * w * 4].iter().copied());
     });
     tiny_skia::IntSize::from_wh(pm.width(), pm.height())
         .and_then(|size| Pixmap::from_vec(px, size))
